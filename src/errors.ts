@@ -1,0 +1,59 @@
+/**
+ * The error catalogue: every error facetwise reports has a stable code, an HTTP status and a
+ * message template, defined here and nowhere else. Code anywhere (model, store, service, http)
+ * throws `fail(code, params, field?)`; the HTTP layer maps a FacetwiseError to
+ * `{error: {code, message, field?}}` with its status. Add a code by adding one entry below.
+ */
+
+type Params = Record<string, string | number>;
+
+interface Entry {
+  status: number;
+  /** Message template; `{name}` is replaced by params.name. Say what is wrong and what to fix. */
+  message: string;
+}
+
+export const catalogue = {
+  INVALID_DEFINITION: { status: 400, message: "The page definition is invalid: {reason}" },
+  UNKNOWN_FACTOR: { status: 400, message: 'Unknown factor "{factor}": the page has {known}' },
+  UNKNOWN_LEVEL: { status: 400, message: 'Unknown level "{level}" of factor "{factor}": it has {known}' },
+  INVALID_COMBINATION_KEY: { status: 400, message: 'Invalid combination key "{key}": {reason}' },
+  INVALID_SETTING: { status: 400, message: 'Invalid setting "{setting}": {reason}' },
+  NUMERICAL_FAILURE: { status: 500, message: "Numerical failure in {where}: {reason}" },
+} as const satisfies Record<string, Entry>;
+
+export type ErrorCode = keyof typeof catalogue;
+
+export class FacetwiseError extends Error {
+  readonly code: ErrorCode;
+  readonly status: number;
+  readonly field?: string;
+  readonly params: Params;
+
+  constructor(code: ErrorCode, params: Params = {}, field?: string) {
+    super(formatMessage(code, params));
+    this.name = "FacetwiseError";
+    this.code = code;
+    this.status = catalogue[code].status;
+    this.params = params;
+    if (field !== undefined) this.field = field;
+  }
+
+  toJSON(): { code: ErrorCode; message: string; field?: string } {
+    return this.field === undefined
+      ? { code: this.code, message: this.message }
+      : { code: this.code, message: this.message, field: this.field };
+  }
+}
+
+/** Fills a code's template; a placeholder without a param is left visible so tests catch it. */
+export function formatMessage(code: ErrorCode, params: Params): string {
+  return catalogue[code].message.replace(/\{(\w+)\}/g, (whole, name: string) =>
+    name in params ? String(params[name]) : whole,
+  );
+}
+
+/** Builds the error to throw: `throw fail("UNKNOWN_LEVEL", {level, factor, known}, "levels")`. */
+export function fail(code: ErrorCode, params: Params = {}, field?: string): FacetwiseError {
+  return new FacetwiseError(code, params, field);
+}
