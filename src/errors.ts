@@ -20,6 +20,7 @@ export const catalogue = {
   INVALID_COMBINATION_KEY: { status: 400, message: 'Invalid combination key "{key}": {reason}' },
   INVALID_SETTING: { status: 400, message: 'Invalid setting "{setting}": {reason}' },
   NUMERICAL_FAILURE: { status: 500, message: "Numerical failure in {where}: {reason}" },
+  INVALID_ARGUMENT: { status: 400, message: 'Invalid argument "{argument}": {reason}' },
 } as const satisfies Record<string, Entry>;
 
 export type ErrorCode = keyof typeof catalogue;
