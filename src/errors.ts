@@ -21,6 +21,8 @@ export const catalogue = {
   INVALID_SETTING: { status: 400, message: 'Invalid setting "{setting}": {reason}' },
   NUMERICAL_FAILURE: { status: 500, message: "Numerical failure in {where}: {reason}" },
   INVALID_ARGUMENT: { status: 400, message: 'Invalid argument "{argument}": {reason}' },
+  INVALID_SCENARIO: { status: 400, message: 'Invalid scenario at "{path}": {reason}' },
+  INVALID_OPTION: { status: 400, message: "Invalid option {option}: {reason}" },
 } as const satisfies Record<string, Entry>;
 
 export type ErrorCode = keyof typeof catalogue;
