@@ -23,6 +23,18 @@ export const catalogue = {
   INVALID_ARGUMENT: { status: 400, message: 'Invalid argument "{argument}": {reason}' },
   INVALID_SCENARIO: { status: 400, message: 'Invalid scenario at "{path}": {reason}' },
   INVALID_OPTION: { status: 400, message: "Invalid option {option}: {reason}" },
+  INVALID_REQUEST: { status: 400, message: "Invalid request at \"{field}\": {reason}" },
+  MALFORMED_JSON: { status: 400, message: "The request body is not valid JSON: {reason}" },
+  BODY_TOO_LARGE: { status: 413, message: "The request body is larger than {limit}; send less" },
+  UNAUTHORIZED: { status: 401, message: "{reason}" },
+  FORBIDDEN: { status: 403, message: "{reason}" },
+  UNKNOWN_PAGE: { status: 404, message: 'No page with key "{page}"; list pages with GET /api/v1/pages' },
+  PAGE_EXISTS: { status: 409, message: 'A page with key "{page}" already exists; choose another key' },
+  UNKNOWN_PICK: { status: 404, message: 'No pick "{pick}" on page "{page}"; send the pick id returned by POST /picks' },
+  NOT_FOUND: { status: 404, message: "No route {method} {path}; see the API list in the README" },
+  NOT_DEMO_PAGE: { status: 409, message: 'Page "{page}" is not the demo page; demo traffic only runs on the seeded demo' },
+  DATABASE_UNAVAILABLE: { status: 503, message: "The database is unavailable ({reason}); retry shortly" },
+  INTERNAL: { status: 500, message: "Internal error ({reference}); the server log has the details" },
 } as const satisfies Record<string, Entry>;
 
 export type ErrorCode = keyof typeof catalogue;
