@@ -35,6 +35,11 @@ export const catalogue = {
   NOT_DEMO_PAGE: { status: 409, message: 'Page "{page}" is not the demo page; demo traffic only runs on the seeded demo' },
   DATABASE_UNAVAILABLE: { status: 503, message: "The database is unavailable ({reason}); retry shortly" },
   INTERNAL: { status: 500, message: "Internal error ({reference}); the server log has the details" },
+  MIGRATION_CHANGED: { status: 500, message: 'Migration "{migration}" was edited after it was applied (checksum {applied} in the database, {current} on disk); restore the file and put the change in a new migration' },
+  MIGRATION_UNKNOWN: { status: 500, message: 'The database has migration "{migration}" applied, which this version of facetwise does not have; run the newer version or use another database' },
+  MIGRATION_FAILED: { status: 500, message: 'Migration "{migration}" failed: {reason}; nothing was applied' },
+  INVALID_MIGRATIONS: { status: 500, message: "The migrations folder {folder} is not usable: {reason}" },
+  DATA_FOLDER_IN_USE: { status: 503, message: "The data folder {folder} is in use by another facetwise process (pid {pid}); stop it, or pass another folder with --data" },
 } as const satisfies Record<string, Entry>;
 
 export type ErrorCode = keyof typeof catalogue;
