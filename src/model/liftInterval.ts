@@ -1,7 +1,7 @@
 import { requireOpenProbability, requireTrials } from "./argumentGuards.ts";
 import { normalQuantile } from "./normalQuantile.ts";
 
-export interface Interval {
+export interface LiftEstimate {
   estimate: number;
   lower: number;
   upper: number;
@@ -11,9 +11,9 @@ export interface Interval {
 
 export interface LiftInterval {
   /** p̂₁ − p̂₂, in rate units (0.01 = one percentage point). */
-  absolute: Interval;
+  absolute: LiftEstimate;
   /** p̂₁ / p̂₂ − 1 (0.10 = ten per cent better than group 2). */
-  relative: Interval;
+  relative: LiftEstimate;
 }
 
 /**
@@ -47,7 +47,7 @@ export function liftInterval(x1: number, n1: number, x2: number, n2: number, lev
   const w1 = wilson(x1, n1, z);
   const w2 = wilson(x2, n2, z);
   const difference = p1 - p2;
-  const absolute: Interval = {
+  const absolute: LiftEstimate = {
     estimate: difference,
     lower: difference - Math.sqrt((p1 - w1.lower) ** 2 + (w2.upper - p2) ** 2),
     upper: difference + Math.sqrt((w1.upper - p1) ** 2 + (p2 - w2.lower) ** 2),
@@ -58,7 +58,7 @@ export function liftInterval(x1: number, n1: number, x2: number, n2: number, lev
   const [a, m, b, k] = corrected ? [x1 + 0.5, n1 + 1, x2 + 0.5, n2 + 1] : [x1, n1, x2, n2];
   const logRatio = Math.log(a / m) - Math.log(b / k);
   const se = Math.sqrt(1 / a - 1 / m + 1 / b - 1 / k);
-  const relative: Interval = {
+  const relative: LiftEstimate = {
     estimate: Math.exp(logRatio) - 1,
     lower: Math.exp(logRatio - z * se) - 1,
     upper: Math.exp(logRatio + z * se) - 1,
