@@ -20,6 +20,8 @@ export const catalogue = {
   INVALID_COMBINATION_KEY: { status: 400, message: 'Invalid combination key "{key}": {reason}' },
   INVALID_SETTING: { status: 400, message: 'Invalid setting "{setting}": {reason}' },
   NUMERICAL_FAILURE: { status: 500, message: "Numerical failure in {where}: {reason}" },
+  INVALID_FOLD_ROW: { status: 400, message: 'Invalid fold row for segment "{segment}": {reason}' },
+  INVALID_MODEL_STATE: { status: 500, message: "The stored model state cannot be used: {reason}" },
   INVALID_ARGUMENT: { status: 400, message: 'Invalid argument "{argument}": {reason}' },
   INVALID_SCENARIO: { status: 400, message: 'Invalid scenario at "{path}": {reason}' },
   INVALID_OPTION: { status: 400, message: "Invalid option {option}: {reason}" },

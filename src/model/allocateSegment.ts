@@ -1,0 +1,169 @@
+/**
+ * One segment's allocation round: M posterior samples (sampling.ts), each sample's best allowed
+ * combination (bestCombination.ts), the retirement rule (retirement.ts), the report figures
+ * (summary.ts) and the served mixture (allocation.ts) — all from the same samples, so the
+ * reported probability of being best is exactly the Thompson share that drives the allocation
+ * (before the baseline share and the exploration floor are mixed in).
+ */
+import { type Allocation, frozenAllocation, mixAllocation } from "./allocation.ts";
+import { comboTable, scanByClimbing, scanEnumerated, scoresOf } from "./bestCombination.ts";
+import { combinationKey } from "./combinationKey.ts";
+import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
+import type { Gaussian } from "./hierarchy.ts";
+import { sigmoid } from "./logistic.ts";
+import { updateRetirement, type RetiredEntry } from "./retirement.ts";
+import type { Rng } from "./rng.ts";
+import { drawSamples } from "./sampling.ts";
+import type { PageSettings } from "./settings.ts";
+import { type CombinationSummary, expectedLoss, factorEffects, rateFromScores, type SegmentSummary, settledStatus } from "./summary.ts";
+
+export interface SegmentRoundInput {
+  design: Design;
+  settings: PageSettings;
+  segment: string;
+  posterior: Gaussian;
+  rng: Rng;
+  now: number;
+  frozen: boolean;
+  /** Currently retired combinations of this segment, by key. */
+  active: Map<string, RetiredEntry>;
+  counters: Map<string, number>;
+}
+
+export interface SegmentRound {
+  allocation: Allocation;
+  summary: SegmentSummary;
+  counters: Map<string, number>;
+  newlyRetired: RetiredEntry[];
+  reinstated: Map<string, string>;
+}
+
+const TOP = 10;
+
+/** Candidates of one round: every allowed combination when listed, else the samples' winners. */
+interface Candidates {
+  keys: string[];
+  combos: Combination[];
+  probabilityBest: Float64Array;
+  thompson: Float64Array;
+  eligible: Uint8Array;
+  /** Each sample's best linear predictor among all allowed combinations. */
+  bestScore: Float64Array;
+  /** Posterior-mean linear predictor, the tie-break of the ranking. */
+  meanScore: Float64Array;
+}
+
+export function allocateSegment(input: SegmentRoundInput): SegmentRound {
+  const { design, settings, segment, posterior, rng } = input;
+  const d = design.dimension;
+  const stride = d + 1;
+  const M = settings.samples;
+  const samples = drawSamples(posterior, d, M, rng);
+  const meanTheta = new Float64Array(stride);
+  meanTheta.set(posterior.mean);
+  const activeIdx = new Int32Array(design.activeCount);
+  const scoresFor = (c: Combination): Float64Array => {
+    writeActiveFeatures(design, c, activeIdx, 0);
+    const out = new Float64Array(M);
+    scoresOf(activeIdx, 0, activeIdx.length, samples, M, stride, out);
+    return out;
+  };
+  const meanScoreOf = (c: Combination): number => {
+    writeActiveFeatures(design, c, activeIdx, 0);
+    let acc = 0;
+    for (let a = 0; a < activeIdx.length; a++) acc += meanTheta[activeIdx[a]];
+    return acc;
+  };
+  const rank = (cand: Candidates): number[] =>
+    cand.keys.map((_, i) => i).sort((a, b) => cand.probabilityBest[b] - cand.probabilityBest[a] || cand.meanScore[b] - cand.meanScore[a]);
+
+  let cand: Candidates;
+  let order: number[];
+  let counters = new Map<string, number>();
+  let newlyRetired: RetiredEntry[] = [];
+  let reinstated = new Map<string, string>();
+  if (design.enumerable) {
+    const table = comboTable(design);
+    const eligible = Uint8Array.from(table.keys, (k) => (input.active.has(k) ? 0 : 1));
+    let scan = scanEnumerated(table, samples, M, stride, eligible);
+    const probabilityBest = scan.countAll.map((x) => x / M);
+    const meanScore = Float64Array.from(table.combos, meanScoreOf);
+    cand = { keys: table.keys, combos: table.combos, probabilityBest, thompson: probabilityBest, eligible, bestScore: scan.bestScore, meanScore };
+    order = rank(cand);
+    const update = updateRetirement({
+      segment,
+      keys: table.keys,
+      probabilityBest,
+      upper: scan.upperLogit.map(sigmoid),
+      leader: order[0],
+      leaderLower: sigmoid(scan.lowerLogit[order[0]]),
+      counters: input.counters,
+      active: input.active,
+      settings,
+      now: input.now,
+    });
+    ({ counters, reinstated } = update);
+    newlyRetired = update.retired;
+    if (newlyRetired.length > 0 || reinstated.size > 0) {
+      // The eligible set changed: recount the Thompson shares over the new one.
+      for (const r of newlyRetired) eligible[table.indexOfKey.get(r.combination)!] = 0;
+      for (const key of reinstated.keys()) eligible[table.indexOfKey.get(key)!] = 1;
+      scan = scanEnumerated(table, samples, M, stride, eligible);
+    }
+    cand.thompson = scan.countEligible.map((x) => x / M);
+  } else {
+    // Retirement needs every combination's bounds, so it applies to listed spaces only.
+    const scan = scanByClimbing(design, samples, M, stride, meanTheta, rng);
+    const probabilityBest = Float64Array.from(scan.winners, (w) => w.count / M);
+    cand = {
+      keys: scan.winners.map((w) => w.key),
+      combos: scan.winners.map((w) => w.combination),
+      probabilityBest,
+      thompson: probabilityBest,
+      eligible: new Uint8Array(scan.winners.length).fill(1),
+      bestScore: scan.bestScore,
+      meanScore: Float64Array.from(scan.winners, (w) => meanScoreOf(w.combination)),
+    };
+    order = rank(cand);
+  }
+
+  const summarize = (c: Combination, key: string, probabilityBest: number): CombinationSummary => ({
+    combination: key,
+    probabilityBest,
+    rate: rateFromScores(scoresFor(c)),
+  });
+  const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], cand.probabilityBest[i]));
+  const leader = top[0];
+  const leaderCombo = cand.combos[order[0]];
+  const baselineKey = combinationKey(design, design.baseline);
+  const baselineAt = cand.keys.indexOf(baselineKey);
+  const baseline = summarize(design.baseline, baselineKey, baselineAt >= 0 ? cand.probabilityBest[baselineAt] : 0);
+  const loss = expectedLoss(cand.bestScore, scoresFor(leaderCombo));
+  const lossFraction = leader.rate.mean > 0 ? loss / leader.rate.mean : Infinity;
+  const summary: SegmentSummary = {
+    segment,
+    ...settledStatus(leader.probabilityBest, lossFraction, settings),
+    leader,
+    top,
+    expectedLoss: loss,
+    expectedLossFraction: lossFraction,
+    baseline,
+    effects: factorEffects(design, posterior),
+  };
+
+  const allocation = input.frozen
+    ? frozenAllocation(segment, leader.combination)
+    : mixAllocation({
+        segment,
+        keys: cand.keys,
+        thompson: cand.thompson,
+        eligible: cand.eligible,
+        baselineKey,
+        baselineShare: settings.baselineShare,
+        explorationFloor: settings.explorationFloor,
+        space: design.enumerable
+          ? undefined
+          : { eligibleCount: design.allowedCount, factors: design.factors.map((f) => ({ name: f.name, levels: f.levels })), exclusions: design.exclusions, retired: [] },
+      });
+  return { allocation, summary, counters, newlyRetired, reinstated };
+}

@@ -1,0 +1,224 @@
+/**
+ * Each posterior sample's best allowed combination — the core of Thompson sampling, where the
+ * share of samples in which a combination is best is its probability of being best and, at the
+ * same time, its allocation (Thompson 1933, Biometrika 25; Russo et al., "A Tutorial on Thompson
+ * Sampling", Foundations and Trends in ML 11(1), 2018, §3).
+ *
+ * Up to ENUMERATION_LIMIT (4096) allowed combinations every combination is scored for every
+ * sample (exact). Above it, coordinate-ascent hill climbing: change one factor at a time to its
+ * best allowed level until no single change improves, from the posterior-mean optimum and from
+ * random allowed starts, keeping the best end point. A climb can stop at a local optimum of the
+ * interaction terms; test/model/bestCombination.test.ts measures how often it finds the
+ * enumerated optimum.
+ */
+import { allowedCombinations, matchesNoRule, sampleAllowed, type Space } from "./allowed.ts";
+import { combinationKey } from "./combinationKey.ts";
+import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
+import { quantileInPlace } from "./quantile.ts";
+import type { Rng } from "./rng.ts";
+
+/** Random starts per sample in addition to the posterior-mean optimum. */
+export const CLIMB_RESTARTS = 3;
+
+/** The allowed combinations of an enumerable design with their active features (cached per design). */
+export interface ComboTable {
+  combos: Combination[];
+  keys: string[];
+  idx: Int32Array;
+  m: number;
+  indexOfKey: Map<string, number>;
+}
+
+const tables = new WeakMap<Design, ComboTable>();
+
+export function comboTable(design: Design): ComboTable {
+  let table = tables.get(design);
+  if (!table) {
+    const combos = allowedCombinations(design);
+    const m = design.activeCount;
+    const idx = new Int32Array(combos.length * m);
+    combos.forEach((c, i) => writeActiveFeatures(design, c, idx, i * m));
+    const keys = combos.map((c) => combinationKey(design, c));
+    table = { combos, keys, idx, m, indexOfKey: new Map(keys.map((k, i) => [k, i])) };
+    tables.set(design, table);
+  }
+  return table;
+}
+
+/** Linear predictor xᵀθ of combination c's active features for every sample. */
+export function scoresOf(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, stride: number, out: Float64Array): void {
+  for (let s = 0, row = 0; s < count; s++, row += stride) {
+    let acc = 0;
+    for (let a = offset; a < offset + m; a++) acc += samples[row + idx[a]];
+    out[s] = acc;
+  }
+}
+
+export interface EnumeratedScan {
+  /** Samples in which each combination is best among all allowed. */
+  countAll: Float64Array;
+  /** … best among the eligible (non-retired) ones: the Thompson allocation. */
+  countEligible: Float64Array;
+  /** Each sample's best linear predictor among all allowed. */
+  bestScore: Float64Array;
+  /** 2.5% and 97.5% sample quantiles of each combination's linear predictor. */
+  lowerLogit: Float64Array;
+  upperLogit: Float64Array;
+}
+
+/** Scores every allowed combination for every sample (combination-major, so quantiles come free). */
+export function scanEnumerated(table: ComboTable, samples: Float64Array, count: number, stride: number, eligible: Uint8Array): EnumeratedScan {
+  const n = table.combos.length;
+  const countAll = new Float64Array(n);
+  const countEligible = new Float64Array(n);
+  const lowerLogit = new Float64Array(n);
+  const upperLogit = new Float64Array(n);
+  const bestScore = new Float64Array(count).fill(-Infinity);
+  const bestAll = new Int32Array(count).fill(-1);
+  const bestEligScore = new Float64Array(count).fill(-Infinity);
+  const bestElig = new Int32Array(count).fill(-1);
+  const scores = new Float64Array(count);
+  for (let c = 0; c < n; c++) {
+    scoresOf(table.idx, c * table.m, table.m, samples, count, stride, scores);
+    const ok = eligible[c] === 1;
+    for (let s = 0; s < count; s++) {
+      const v = scores[s];
+      if (v > bestScore[s]) {
+        bestScore[s] = v;
+        bestAll[s] = c;
+      }
+      if (ok && v > bestEligScore[s]) {
+        bestEligScore[s] = v;
+        bestElig[s] = c;
+      }
+    }
+    lowerLogit[c] = quantileInPlace(scores, 0.025);
+    upperLogit[c] = quantileInPlace(scores, 0.975);
+  }
+  for (let s = 0; s < count; s++) {
+    countAll[bestAll[s]]++;
+    if (bestElig[s] >= 0) countEligible[bestElig[s]]++;
+  }
+  return { countAll, countEligible, bestScore, lowerLogit, upperLogit };
+}
+
+interface FactorLinks {
+  /** Pairs involving the factor: pair index, the other factor, and whether this factor is the pair's first. */
+  pairs: { p: number; other: number; first: boolean }[];
+  /** The exclusion rules that name this factor (the only ones a change of it can trigger). */
+  space: Space;
+}
+
+function links(design: Design): FactorLinks[] {
+  return design.factors.map((_, f) => ({
+    pairs: design.pairs.flatMap(([i, j], p): { p: number; other: number; first: boolean }[] =>
+      i === f ? [{ p, other: j, first: true }] : j === f ? [{ p, other: i, first: false }] : [],
+    ),
+    space: { sizes: design.sizes, exclusions: design.exclusions.filter((rule) => rule.some(([g]) => g === f)) },
+  }));
+}
+
+/** θ's contribution of factor f at level l given the other factors' levels in c (main + its pairs). */
+function contribution(design: Design, link: FactorLinks, theta: Float64Array, base: number, f: number, l: number, c: Combination): number {
+  if (l === 0) return 0; // every feature involving a reference level is zero
+  let acc = theta[base + design.mainIndex[f][l]];
+  for (const { p, other, first } of link.pairs) {
+    const o = c[other];
+    if (o === 0) continue;
+    const j = design.pairs[p][1];
+    const a = first ? l : o;
+    const b = first ? o : l;
+    acc += theta[base + design.pairBase[p] + (a - 1) * (design.sizes[j] - 1) + (b - 1)];
+  }
+  return acc;
+}
+
+function fullScore(design: Design, theta: Float64Array, base: number, c: Combination, scratch: Int32Array): number {
+  writeActiveFeatures(design, c, scratch, 0);
+  let acc = 0;
+  for (let a = 0; a < scratch.length; a++) acc += theta[base + scratch[a]];
+  return acc;
+}
+
+/** Coordinate ascent from c (modified in place) under sample θ at row `base`; returns the end score. */
+function climb(design: Design, fl: FactorLinks[], theta: Float64Array, base: number, c: Combination, scratch: Int32Array): number {
+  const F = design.factors.length;
+  let improved = true;
+  let sweeps = 0;
+  while (improved && sweeps++ < 100) {
+    improved = false;
+    for (let f = 0; f < F; f++) {
+      const current = c[f];
+      let bestLevel = current;
+      let best = contribution(design, fl[f], theta, base, f, current, c);
+      for (let l = 0; l < design.sizes[f]; l++) {
+        if (l === current) continue;
+        const v = contribution(design, fl[f], theta, base, f, l, c);
+        if (v <= best) continue;
+        c[f] = l;
+        const allowed = matchesNoRule(fl[f].space, c);
+        c[f] = current;
+        if (allowed) {
+          best = v;
+          bestLevel = l;
+        }
+      }
+      if (bestLevel !== current) {
+        c[f] = bestLevel;
+        improved = true;
+      }
+    }
+  }
+  return fullScore(design, theta, base, c, scratch);
+}
+
+export interface ClimbScan {
+  /** Distinct winners, with how many samples each won. */
+  winners: { combination: Combination; key: string; count: number }[];
+  bestScore: Float64Array;
+}
+
+/**
+ * Hill-climbing search of each sample's best allowed combination for spaces too large to list.
+ * `meanTheta` (length d+1, last slot 0) seeds one start per sample with the posterior-mean optimum.
+ */
+export function scanByClimbing(design: Design, samples: Float64Array, count: number, stride: number, meanTheta: Float64Array, rng: Rng, restarts = CLIMB_RESTARTS): ClimbScan {
+  const fl = links(design);
+  const F = design.factors.length;
+  const scratch = new Int32Array(design.activeCount);
+  const next = () => rng.next();
+  // Posterior-mean optimum, itself found with several restarts.
+  let meanBest = design.baseline.slice();
+  let meanBestScore = climb(design, fl, meanTheta, 0, meanBest, scratch);
+  const start = new Array<number>(F);
+  for (let r = 0; r < 4 * restarts; r++) {
+    if (!sampleAllowed(design, next, start)) break;
+    const score = climb(design, fl, meanTheta, 0, start, scratch);
+    if (score > meanBestScore) {
+      meanBestScore = score;
+      meanBest = start.slice();
+    }
+  }
+  const winners = new Map<string, { combination: Combination; key: string; count: number }>();
+  const bestScore = new Float64Array(count);
+  const c = new Array<number>(F);
+  for (let s = 0; s < count; s++) {
+    const base = s * stride;
+    let best = meanBest.slice();
+    let bestValue = climb(design, fl, samples, base, best, scratch);
+    for (let r = 0; r < restarts; r++) {
+      if (!sampleAllowed(design, next, c)) break;
+      const v = climb(design, fl, samples, base, c, scratch);
+      if (v > bestValue) {
+        bestValue = v;
+        best = c.slice();
+      }
+    }
+    bestScore[s] = bestValue;
+    const code = best.join(",");
+    const entry = winners.get(code);
+    if (entry) entry.count++;
+    else winners.set(code, { combination: best, key: combinationKey(design, best), count: 1 });
+  }
+  return { winners: [...winners.values()], bestScore };
+}

@@ -1,0 +1,118 @@
+/**
+ * One fold cycle — the only entry point the server's fold loop and the simulator use:
+ *   1. forgetting: every site is scaled by 2^(−Δt/half-life) (forgetting.ts);
+ *   2. fold: the rows are merged per (segment, combination) and each segment with rows runs a
+ *      Laplace update under its current posterior, adding the information to its site (fold.ts);
+ *   3. posteriors of the pooled model, of a new segment ("*") and of every requested segment
+ *      (hierarchy.ts);
+ *   4. per requested segment and "*": Thompson allocation, summary and retirement
+ *      (allocateSegment.ts). Segments without a site of their own are served "*"'s allocation.
+ * Pure: `now` and `seed` are inputs, the input state is not modified, and each segment draws from
+ * its own stream derived from (seed, segment key), so results do not depend on segment order.
+ */
+import type { Allocation } from "./allocation.ts";
+import { allocateSegment } from "./allocateSegment.ts";
+import type { Design } from "./design.ts";
+import { foldSegment, groupRows, type FoldRow } from "./fold.ts";
+import { forget, forgettingWeight } from "./forgetting.ts";
+import { computePosteriors, segmentPosterior } from "./hierarchy.ts";
+import type { RetiredEntry } from "./retirement.ts";
+import { createRng, hashString, mix32 } from "./rng.ts";
+import type { PageSettings } from "./settings.ts";
+import { checkStateMatches, type ModelState, OVERFLOW_SITE } from "./state.ts";
+import type { SegmentSummary } from "./summary.ts";
+
+/** The allocation and summary key of the pooled model (served to unseen segments). */
+export const POOLED = "*";
+
+export interface FoldCycleInput {
+  design: Design;
+  settings: PageSettings;
+  state: ModelState;
+  rows: FoldRow[];
+  /** Current time in ms (drives forgetting and the retirement timestamps). */
+  now: number;
+  /** Segments to allocate for ("*" is always added). */
+  segments: string[];
+  /** The current retired list, including reinstated history. */
+  retired: RetiredEntry[];
+  seed: number;
+  /** Serve each segment's leader only. */
+  frozen?: boolean;
+}
+
+export interface FoldCycleOutput {
+  state: ModelState;
+  allocations: Record<string, Allocation>;
+  summaries: Record<string, SegmentSummary>;
+  retired: RetiredEntry[];
+  /** Rows whose combination is not part of the design (for example a level removed since the pick). */
+  skipped: { rows: number; visitors: number };
+}
+
+export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
+  const { design, settings, now } = input;
+  checkStateMatches(input.state, design);
+  const w = forgettingWeight(input.state.lastFoldAt, now, settings.halfLifeDays);
+  const forgotten = forget(input.state, w);
+  const grouped = groupRows(design, input.rows, forgotten.sites, settings.maxSegments);
+
+  const sites = new Map(forgotten.sites);
+  if (grouped.bySegment.size > 0) {
+    const before = computePosteriors(design, settings, forgotten.sites, grouped.bySegment.keys());
+    for (const [segment, rows] of grouped.bySegment) {
+      sites.set(segment, foldSegment(design, segmentPosterior(before, segment), forgotten.sites.get(segment), rows, segment));
+    }
+  }
+
+  const requested = [...new Set(input.segments)].filter((s) => s !== POOLED && s !== OVERFLOW_SITE);
+  const own = requested.filter((s) => sites.has(s));
+  const post = computePosteriors(design, settings, sites, own);
+
+  const activeBySegment = new Map<string, Map<string, RetiredEntry>>();
+  for (const entry of input.retired) {
+    if (entry.reinstatedAt !== null) continue;
+    let m = activeBySegment.get(entry.segment);
+    if (!m) activeBySegment.set(entry.segment, (m = new Map()));
+    m.set(entry.combination, entry);
+  }
+
+  const allocations: Record<string, Allocation> = {};
+  const summaries: Record<string, SegmentSummary> = {};
+  const dominated = new Map(forgotten.dominated);
+  const reinstatedBySegment = new Map<string, Map<string, string>>();
+  const newlyRetired: RetiredEntry[] = [];
+  for (const segment of [POOLED, ...own]) {
+    const round = allocateSegment({
+      design,
+      settings,
+      segment,
+      posterior: segment === POOLED ? post.star : post.segments.get(segment)!,
+      rng: createRng(mix32(input.seed) ^ hashString(segment)),
+      now,
+      frozen: input.frozen === true,
+      active: activeBySegment.get(segment) ?? new Map(),
+      counters: forgotten.dominated.get(segment) ?? new Map(),
+    });
+    allocations[segment] = round.allocation;
+    summaries[segment] = round.summary;
+    if (round.counters.size > 0) dominated.set(segment, round.counters);
+    else dominated.delete(segment);
+    newlyRetired.push(...round.newlyRetired);
+    if (round.reinstated.size > 0) reinstatedBySegment.set(segment, round.reinstated);
+  }
+  for (const segment of requested) {
+    if (allocations[segment]) continue;
+    allocations[segment] = { ...allocations[POOLED], segment };
+    summaries[segment] = { ...summaries[POOLED], segment };
+  }
+
+  const retired = input.retired.map((entry) => {
+    const reason = entry.reinstatedAt === null ? reinstatedBySegment.get(entry.segment)?.get(entry.combination) : undefined;
+    return reason === undefined ? entry : { ...entry, reinstatedAt: now, reinstateReason: reason };
+  });
+  retired.push(...newlyRetired);
+
+  const state: ModelState = { ...forgotten, sites, dominated, lastFoldAt: now };
+  return { state, allocations, summaries, retired, skipped: grouped.skipped };
+}

@@ -1,0 +1,145 @@
+/**
+ * Dense symmetric positive-definite linear algebra on row-major Float64Array (d×d), written out
+ * because the fold and the sampler call it in hot loops at d ≤ a few hundred where a general
+ * matrix library's allocation overhead dominates. Cholesky–Banachiewicz factorisation and
+ * triangular solves as in Golub & Van Loan, Matrix Computations, 4th ed. 2013, §4.2.
+ *
+ * `factorSpd` is the only entry that accepts a matrix from the model: it checks finiteness,
+ * symmetrises, and when the factorisation fails adds a growing diagonal jitter (a standard
+ * repair, cf. Higham, "Computing a nearest symmetric positive semidefinite matrix", 1988, for the
+ * idea of moving to the nearest acceptable matrix); if even that fails it throws
+ * NUMERICAL_FAILURE so no NaN ever leaves the model.
+ */
+import { fail } from "../errors.ts";
+
+/** Lower Cholesky factor L with A = L Lᵀ, or null when A is not (numerically) positive definite. */
+export function cholesky(a: Float64Array, d: number): Float64Array | null {
+  const l = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) {
+    const ri = i * d;
+    for (let j = 0; j <= i; j++) {
+      const rj = j * d;
+      let s = a[ri + j];
+      for (let k = 0; k < j; k++) s -= l[ri + k] * l[rj + k];
+      if (i === j) {
+        if (!(s > 0)) return null;
+        l[ri + i] = Math.sqrt(s);
+      } else {
+        l[ri + j] = s / l[rj + j];
+      }
+    }
+  }
+  return l;
+}
+
+/** (A + Aᵀ)/2 in place. */
+export function symmetrize(a: Float64Array, d: number): void {
+  for (let i = 0; i < d; i++) {
+    for (let j = 0; j < i; j++) {
+      const v = 0.5 * (a[i * d + j] + a[j * d + i]);
+      a[i * d + j] = v;
+      a[j * d + i] = v;
+    }
+  }
+}
+
+/**
+ * Cholesky factor of a matrix that should be symmetric positive definite, repairing small
+ * defects (asymmetry, round-off indefiniteness) in place; throws NUMERICAL_FAILURE otherwise.
+ */
+export function factorSpd(a: Float64Array, d: number, where: string): Float64Array {
+  for (let i = 0; i < a.length; i++) {
+    if (!Number.isFinite(a[i])) throw fail("NUMERICAL_FAILURE", { where, reason: "a matrix entry is not finite" });
+  }
+  symmetrize(a, d);
+  const first = cholesky(a, d);
+  if (first) return first;
+  let scale = 0;
+  for (let i = 0; i < d; i++) scale = Math.max(scale, Math.abs(a[i * d + i]));
+  if (!(scale > 0)) throw fail("NUMERICAL_FAILURE", { where, reason: "the matrix has a zero diagonal" });
+  for (let jitter = scale * 1e-12; jitter <= scale * 1e-3; jitter *= 10) {
+    for (let i = 0; i < d; i++) a[i * d + i] += jitter;
+    const l = cholesky(a, d);
+    if (l) return l;
+    for (let i = 0; i < d; i++) a[i * d + i] -= jitter;
+  }
+  throw fail("NUMERICAL_FAILURE", { where, reason: "the matrix is not positive definite even after repair" });
+}
+
+/** Solves L y = b (forward substitution) in place on b. */
+export function forwardSolve(l: Float64Array, d: number, b: Float64Array): void {
+  for (let i = 0; i < d; i++) {
+    let s = b[i];
+    const ri = i * d;
+    for (let k = 0; k < i; k++) s -= l[ri + k] * b[k];
+    b[i] = s / l[ri + i];
+  }
+}
+
+/** Solves Lᵀ x = y (back substitution) in place on y. */
+export function backSolveTransposed(l: Float64Array, d: number, y: Float64Array): void {
+  for (let i = d - 1; i >= 0; i--) {
+    let s = y[i];
+    for (let k = i + 1; k < d; k++) s -= l[k * d + i] * y[k];
+    y[i] = s / l[i * d + i];
+  }
+}
+
+/** x = A⁻¹ b given A's Cholesky factor (returns a new vector). */
+export function choleskySolve(l: Float64Array, d: number, b: ArrayLike<number>): Float64Array {
+  const x = Float64Array.from(b as ArrayLike<number>);
+  forwardSolve(l, d, x);
+  backSolveTransposed(l, d, x);
+  return x;
+}
+
+/** X = A⁻¹ B for a d×d right-hand side B, given A's Cholesky factor (returns a new matrix). */
+export function choleskySolveMatrix(l: Float64Array, d: number, b: Float64Array): Float64Array {
+  // Work on columns of B, transposed into rows for contiguous access.
+  const xt = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) xt[j * d + i] = b[i * d + j];
+  const col = new Float64Array(d);
+  for (let j = 0; j < d; j++) {
+    for (let i = 0; i < d; i++) col[i] = xt[j * d + i];
+    forwardSolve(l, d, col);
+    backSolveTransposed(l, d, col);
+    for (let i = 0; i < d; i++) xt[j * d + i] = col[i];
+  }
+  const x = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) x[i * d + j] = xt[j * d + i];
+  return x;
+}
+
+/** A⁻¹ from A's Cholesky factor. */
+export function choleskyInverse(l: Float64Array, d: number): Float64Array {
+  const identity = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) identity[i * d + i] = 1;
+  const inv = choleskySolveMatrix(l, d, identity);
+  symmetrize(inv, d);
+  return inv;
+}
+
+/** Diagonal of A⁻¹ from A's Cholesky factor: ‖L⁻¹ e_i‖² summed by columns of L⁻¹. */
+export function inverseDiagonal(l: Float64Array, d: number): Float64Array {
+  const out = new Float64Array(d);
+  const e = new Float64Array(d);
+  for (let j = 0; j < d; j++) {
+    e.fill(0);
+    e[j] = 1;
+    forwardSolve(l, d, e); // e = L⁻¹ e_j, the j-th column of L⁻¹
+    for (let i = 0; i < d; i++) out[i] += e[i] * e[i]; // (A⁻¹)_ii = Σ_j (L⁻¹)_ij²
+  }
+  return out;
+}
+
+/** y = A x for a d×d matrix. */
+export function matVec(a: Float64Array, d: number, x: ArrayLike<number>): Float64Array {
+  const y = new Float64Array(d);
+  for (let i = 0; i < d; i++) {
+    let s = 0;
+    const ri = i * d;
+    for (let j = 0; j < d; j++) s += a[ri + j] * x[j];
+    y[i] = s;
+  }
+  return y;
+}

@@ -1,0 +1,147 @@
+/**
+ * Laplace approximation of a Bayesian logistic regression on aggregated binomial rows.
+ *
+ * Minimises the negative log posterior
+ *   f(θ) = ½(θ−μ)ᵀP(θ−μ) − Σ_r [k_r log σ(x_rᵀθ) + (n_r−k_r) log(1−σ(x_rᵀθ))]
+ * by damped Newton steps (step halving until the Armijo condition holds; Nocedal & Wright,
+ * Numerical Optimization, 2nd ed. 2006, §3.1 and §3.5), then returns the mode and the precision
+ * at the mode, P + Σ n_r p_r(1−p_r) x_r x_rᵀ (the Laplace approximation: Bishop, Pattern
+ * Recognition and Machine Learning, 2006, §4.4 and §4.5.1). Rows with equal features are merged
+ * beforehand, which is lossless for categorical features, so the cost depends on the number of
+ * distinct combinations, not on visitors.
+ */
+import { fail } from "../errors.ts";
+import { factorSpd } from "./linalg.ts";
+import { logSigmoid, sigmoid, sigmoidVariance } from "./logistic.ts";
+
+/** Aggregated rows: row r's active features are idx[r*m … r*m+m) (padded with index d). */
+export interface RowBlock {
+  count: number;
+  m: number;
+  idx: Int32Array;
+  n: Float64Array;
+  k: Float64Array;
+}
+
+export interface LaplaceResult {
+  mode: Float64Array;
+  /** Posterior precision at the mode. */
+  precision: Float64Array;
+  /** Σ n p(1−p) x xᵀ at the mode (the data part of the precision). */
+  dataPrecision: Float64Array;
+  choleskyFactor: Float64Array;
+  iterations: number;
+}
+
+const MAX_ITERATIONS = 100;
+const MAX_HALVINGS = 40;
+
+function negLogPosterior(theta: Float64Array, d: number, p: Float64Array, mu: Float64Array, rows: RowBlock): number {
+  let prior = 0;
+  for (let i = 0; i < d; i++) {
+    const di = theta[i] - mu[i];
+    let s = 0;
+    for (let j = 0; j < d; j++) s += p[i * d + j] * (theta[j] - mu[j]);
+    prior += di * s;
+  }
+  let loglik = 0;
+  const { m, idx, n, k } = rows;
+  for (let r = 0; r < rows.count; r++) {
+    let eta = 0;
+    for (let a = r * m, end = a + m; a < end; a++) eta += theta[idx[a]];
+    loglik += k[r] * logSigmoid(eta) + (n[r] - k[r]) * logSigmoid(-eta);
+  }
+  return 0.5 * prior - loglik;
+}
+
+/** Σ w_r x_r x_rᵀ with w_r = n_r p_r (1−p_r) at θ (upper and lower triangles filled). */
+function dataHessian(theta: Float64Array, d: number, rows: RowBlock): Float64Array {
+  const h = new Float64Array(d * d);
+  const { m, idx, n } = rows;
+  for (let r = 0; r < rows.count; r++) {
+    const base = r * m;
+    let eta = 0;
+    for (let a = base; a < base + m; a++) eta += theta[idx[a]];
+    const w = n[r] * sigmoidVariance(eta);
+    if (w === 0) continue;
+    for (let a = base; a < base + m; a++) {
+      const i = idx[a];
+      if (i === d) continue;
+      for (let b = base; b < base + m; b++) {
+        const j = idx[b];
+        if (j !== d) h[i * d + j] += w;
+      }
+    }
+  }
+  return h;
+}
+
+/**
+ * Posterior mode and Laplace precision for prior N(μ, P⁻¹) and the given rows. `d` is the
+ * dimension; θ vectors carry one extra always-zero slot at index d for padded features.
+ */
+export function laplaceFit(prior: { precision: Float64Array; mean: Float64Array }, d: number, rows: RowBlock, where = "the fold"): LaplaceResult {
+  const p = prior.precision;
+  const mu = prior.mean;
+  const theta = new Float64Array(d + 1);
+  theta.set(mu.subarray(0, d));
+  let f = negLogPosterior(theta, d, p, mu, rows);
+  const grad = new Float64Array(d);
+  const trial = new Float64Array(d + 1);
+  let iterations = 0;
+  for (; iterations < MAX_ITERATIONS; iterations++) {
+    // Gradient of f: P(θ−μ) − Σ (k − n p) x.
+    for (let i = 0; i < d; i++) {
+      let s = 0;
+      for (let j = 0; j < d; j++) s += p[i * d + j] * (theta[j] - mu[j]);
+      grad[i] = s;
+    }
+    const { m, idx, n, k } = rows;
+    for (let r = 0; r < rows.count; r++) {
+      let eta = 0;
+      for (let a = r * m; a < r * m + m; a++) eta += theta[idx[a]];
+      const resid = k[r] - n[r] * sigmoid(eta);
+      for (let a = r * m; a < r * m + m; a++) if (idx[a] !== d) grad[idx[a]] -= resid;
+    }
+    const h = dataHessian(theta, d, rows);
+    for (let i = 0; i < d * d; i++) h[i] += p[i];
+    const l = factorSpd(h, d, where);
+    // Newton direction Δ = −H⁻¹ g.
+    const step = Float64Array.from(grad);
+    for (let i = 0; i < d; i++) {
+      let s = step[i];
+      for (let q = 0; q < i; q++) s -= l[i * d + q] * step[q];
+      step[i] = s / l[i * d + i];
+    }
+    for (let i = d - 1; i >= 0; i--) {
+      let s = step[i];
+      for (let q = i + 1; q < d; q++) s -= l[q * d + i] * step[q];
+      step[i] = s / l[i * d + i];
+    }
+    let slope = 0; // gᵀΔ with Δ = −step
+    for (let i = 0; i < d; i++) slope -= grad[i] * step[i];
+    if (-slope < 1e-14 * (1 + Math.abs(f))) break; // Newton decrement² ≈ 0: converged
+    let t = 1;
+    let accepted = false;
+    for (let halving = 0; halving < MAX_HALVINGS; halving++) {
+      for (let i = 0; i < d; i++) trial[i] = theta[i] - t * step[i];
+      const ft = negLogPosterior(trial, d, p, mu, rows);
+      if (Number.isFinite(ft) && ft <= f + 1e-4 * t * slope) {
+        theta.set(trial.subarray(0, d));
+        f = ft;
+        accepted = true;
+        break;
+      }
+      t *= 0.5;
+    }
+    if (!accepted) break; // no decrease possible at machine precision: at the mode
+  }
+  for (let i = 0; i < d; i++) {
+    if (!Number.isFinite(theta[i])) throw fail("NUMERICAL_FAILURE", { where, reason: "the posterior mode is not finite" });
+  }
+  const dataPrecision = dataHessian(theta, d, rows);
+  const precision = new Float64Array(d * d);
+  for (let i = 0; i < d * d; i++) precision[i] = p[i] + dataPrecision[i];
+  const choleskyFactor = factorSpd(precision, d, where);
+  return { mode: theta.subarray(0, d).slice(), precision, dataPrecision, choleskyFactor, iterations };
+}

@@ -1,0 +1,55 @@
+/**
+ * Page settings: the knobs of one page's engine (attribution, fold period, exploration, settle
+ * and retire thresholds, forgetting, priors, sample count). The scenario file's `engine` block
+ * uses the same names. Every field is optional and takes the default below; unknown names are
+ * rejected so a typo never silently falls back to a default.
+ *
+ * Prior scales are "common practice, no source" (DESIGN.md "Priors matter more than anything"):
+ * one page element rarely moves conversion by more than ±0.5 log-odds, interactions are smaller,
+ * and segments differ by less again; the intercept prior N(−3, 2²) covers baseline rates from
+ * about 0.1% to 50% within ±2 sd.
+ */
+import { z } from "zod";
+import { fail } from "../errors.ts";
+
+const probability = z.number().min(0).max(1);
+
+export const settingsSchema = z.strictObject({
+  attributionWindowHours: z.number().positive().default(24),
+  assignmentHours: z.number().positive().default(720),
+  foldIntervalSeconds: z.number().positive().default(900),
+  explorationFloor: probability.lt(1).default(0.02),
+  baselineShare: probability.lt(1).default(0.05),
+  settleProbability: z.number().gt(0).max(1).default(0.95),
+  settleLossFraction: z.number().min(0).default(0.01),
+  retireProbability: probability.lt(1).default(0.001),
+  retireAfterFolds: z.number().int().min(1).default(3),
+  halfLifeDays: z.number().positive().nullable().default(null),
+  segmentSpread: z.number().min(0).max(10).default(0.25),
+  priorInterceptMean: z.number().min(-30).max(30).default(-3),
+  priorInterceptScale: z.number().positive().max(100).default(2),
+  priorMainScale: z.number().positive().max(100).default(0.5),
+  priorInteractionScale: z.number().positive().max(100).default(0.25),
+  samples: z.number().int().min(100).max(100_000).default(1000),
+  maxSegments: z.number().int().min(1).max(100_000).default(200),
+});
+
+export type PageSettings = z.output<typeof settingsSchema>;
+
+export const defaultSettings: PageSettings = Object.freeze(settingsSchema.parse({}));
+
+/**
+ * Validates page settings (partial input is completed with defaults).
+ * Throws INVALID_SETTING naming the first offending field.
+ */
+export function parseSettings(input: unknown): PageSettings {
+  const result = settingsSchema.safeParse(input ?? {});
+  if (result.success) return result.data;
+  const issue = result.error.issues[0];
+  if (issue.code === "unrecognized_keys") {
+    const name = issue.keys[0];
+    throw fail("INVALID_SETTING", { setting: name, reason: "no such setting; see the settings table" }, name);
+  }
+  const name = issue.path.length > 0 ? issue.path.map(String).join(".") : "settings";
+  throw fail("INVALID_SETTING", { setting: name, reason: issue.message }, name);
+}
