@@ -1,0 +1,119 @@
+/**
+ * The express 5 application: /healthz, /readyz, the JSON API under /api/v1 (admin routes behind
+ * the Bearer token; the public pick and outcome routes behind X-Page-Key, with CORS), the admin
+ * console's static files at /, and the error mapping. Routes only validate, call one service and
+ * shape the answer.
+ */
+import express, { type Request, type Response } from "express";
+import { existsSync } from "node:fs";
+import { join } from "node:path";
+import { fail } from "../errors.ts";
+import type { Services } from "../service/index.ts";
+import { requireAdmin, publicCors } from "./auth.ts";
+import { errorHandler } from "./errors.ts";
+import {
+  createPageSchema, definitionSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
+  patchPageSchema, pickSchema,
+} from "./validation.ts";
+
+export interface AppOptions {
+  /** folder of the built console (web/dist); served at / when it exists */
+  webDir?: string | null;
+  adminBodyLimit?: string;
+  publicBodyLimit?: string;
+}
+
+const pageKey = (req: Request): string => parse(pageKeySchema, req.params.key, "key");
+
+export function createApp(services: Services, options: AppOptions = {}): express.Express {
+  const adminLimit = options.adminBodyLimit ?? "1mb";
+  const publicLimit = options.publicBodyLimit ?? "16kb";
+  const app = express();
+  app.disable("x-powered-by");
+  app.set("etag", false);
+
+  app.get("/healthz", (_req, res) => {
+    res.json({ ok: true });
+  });
+  app.get("/readyz", async (_req, res) => {
+    const readiness = await services.ready();
+    res.status(readiness.ready ? 200 : 503).json({ ready: readiness.ready, detail: readiness.detail });
+  });
+
+  // Public routes: landing pages on other origins. text/plain is parsed too, so
+  // navigator.sendBeacon (which cannot set application/json) works for outcomes.
+  const publicApi = express.Router();
+  publicApi.use(publicCors);
+  publicApi.use(express.json({ limit: publicLimit, type: ["application/json", "text/plain"], strict: true }));
+  publicApi.post("/pages/:key/picks", async (req, res) => {
+    const key = pageKey(req);
+    const body = parse(pickSchema, req.body);
+    res.json(await services.picks.pick(key, req.get("x-page-key"), body));
+  });
+  publicApi.post("/pages/:key/outcomes", async (req, res) => {
+    const key = pageKey(req);
+    const body = parse(outcomeSchema, req.body);
+    res.status(202).json(await services.outcomes.record(key, req.get("x-page-key"), body));
+  });
+  app.use("/api/v1", (req, res, next) => {
+    // route public paths (incl. their CORS preflight) to the public router only
+    if (/^\/pages\/[^/]+\/(picks|outcomes)\/?$/.test(req.path)) return publicApi(req, res, next);
+    next();
+  });
+
+  const admin = express.Router();
+  admin.use(requireAdmin(services.auth));
+  admin.use(express.json({ limit: adminLimit, strict: true }));
+  admin.get("/session", (_req, res) => {
+    res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey });
+  });
+  admin.post("/definitions/check", (req, res) => {
+    res.json(services.pages.checkDefinition(parse(definitionSchema, req.body)));
+  });
+  admin.post("/pages", async (req, res) => {
+    const page = await services.pages.create(parse(createPageSchema, req.body));
+    res.status(201).json(page);
+  });
+  admin.get("/pages", async (_req, res) => {
+    res.json({ pages: await services.pages.list() });
+  });
+  admin.get("/pages/:key", async (req, res) => {
+    res.json(await services.pages.get(pageKey(req)));
+  });
+  admin.patch("/pages/:key", async (req, res) => {
+    const key = pageKey(req);
+    res.json(await services.pages.patch(key, parse(patchPageSchema, req.body)));
+  });
+  admin.get("/pages/:key/report", async (req, res) => {
+    res.json(await services.reports.report(pageKey(req)));
+  });
+  admin.get("/pages/:key/export", async (req, res) => {
+    const key = pageKey(req);
+    const { format } = parse(exportQuerySchema, req.query, "query");
+    if (format === "csv") {
+      res.type("text/csv; charset=utf-8").set("Content-Disposition", `attachment; filename="${key}.csv"`).send(await services.exports.csv(key));
+    } else {
+      res.json(await services.exports.json(key));
+    }
+  });
+  admin.post("/pages/:key/demo-traffic", async (req, res) => {
+    const key = pageKey(req);
+    const { visitors } = parse(demoTrafficSchema, req.body);
+    res.status(202).json(await services.demo.start(key, visitors));
+  });
+  app.use("/api/v1", admin);
+
+  app.use("/api", (req: Request) => {
+    throw fail("NOT_FOUND", { method: req.method, path: req.originalUrl.split("?")[0] });
+  });
+
+  const webDir = options.webDir;
+  if (webDir && existsSync(join(webDir, "index.html"))) {
+    app.use(express.static(webDir, { index: "index.html", fallthrough: true }));
+  }
+  app.use((req: Request, res: Response) => {
+    res.status(404).json({ error: fail("NOT_FOUND", { method: req.method, path: req.path }).toJSON() });
+  });
+  app.use(errorHandler(adminLimit));
+  return app;
+}

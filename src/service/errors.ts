@@ -1,0 +1,17 @@
+/**
+ * Turns any failure into what a client may see: catalogue errors pass through, a lost or
+ * unreachable database becomes DATABASE_UNAVAILABLE (503, safe to retry), anything else is an
+ * internal error whose details stay in the server log.
+ */
+import { randomBytes } from "node:crypto";
+import { fail, FacetwiseError } from "../errors.ts";
+import { isConnectionError } from "../store/database.ts";
+
+export function asServiceError(error: unknown): FacetwiseError {
+  if (error instanceof FacetwiseError) return error;
+  if (isConnectionError(error)) {
+    const reason = (error as Error)?.message || (error as { code?: string })?.code || "connection lost";
+    return fail("DATABASE_UNAVAILABLE", { reason });
+  }
+  return fail("INTERNAL", { reference: randomBytes(4).toString("hex") });
+}

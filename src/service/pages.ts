@@ -1,0 +1,238 @@
+/**
+ * Pages: create (validated by the engine's design builder, then an initial fold so the page can
+ * serve at once), list, read, check a definition without saving, and edit — settings, levels and
+ * factors (the learned state is remapped by the engine), pause, resume, freeze — saying what
+ * happened to what was learned.
+ */
+import { EventEmitter } from "node:events";
+import type { Pool } from "pg";
+import { buildDesign, deserializeState, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
+import type { Design, PageDefinition } from "../model/index.ts";
+import { fail } from "../errors.ts";
+import { inTransaction } from "../store/repositories/sql.ts";
+import {
+  insertPage, listPages, loadPage, pageTotals, replaceDefinition, updateLevelValue, updatePageFields,
+  type StoredFactor, type StoredPage,
+} from "../store/repositories/pages.ts";
+import { foldLock, insertSnapshot, loadSnapshot, lockedPageRow, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
+import { ignoreOpenPicks, openCombinations } from "../store/repositories/picks.ts";
+import { baselineKey, designOf, pageView, servable, settingsOf, type PageView } from "./definition.ts";
+import { foldInTransaction } from "./folds.ts";
+import { newPublicKey } from "./auth.ts";
+import { asServiceError } from "./errors.ts";
+
+export interface LevelInput { name: string; value?: string }
+export interface FactorInput { name: string; levels: LevelInput[] }
+export interface PageInput {
+  key: string; name: string; factors: FactorInput[]; exclude?: Record<string, string>[];
+  segmentBy?: string[]; interactions?: [string, string][]; settings?: Record<string, unknown>;
+}
+export interface PagePatch {
+  name?: string; settings?: Record<string, unknown>; status?: "active" | "paused" | "frozen";
+  addFactors?: FactorInput[]; removeFactors?: string[];
+  addLevels?: { factor: string; name: string; value?: string }[];
+  removeLevels?: { factor: string; level: string }[];
+  levelValues?: { factor: string; level: string; value: string }[];
+}
+export interface Learned {
+  action: "unchanged" | "kept" | "remapped"; message: string;
+  keptFeatures: number; droppedFeatures: string[]; addedFeatures: string[]; droppedOpenPicks: number;
+}
+
+const SEGMENT_NAME = /^[A-Za-z0-9_.-]{1,64}$/;
+
+function checkSegmentBy(segmentBy: string[]): void {
+  segmentBy.forEach((name, i) => {
+    if (!SEGMENT_NAME.test(name)) throw fail("INVALID_DEFINITION", { reason: `segmentBy entries are context key names (letters, digits, _ . -), got "${name}"` }, `segmentBy.${i}`);
+    if (segmentBy.indexOf(name) !== i) throw fail("INVALID_DEFINITION", { reason: `context key "${name}" is listed twice` }, `segmentBy.${i}`);
+  });
+}
+
+const storedFactors = (factors: FactorInput[]): StoredFactor[] =>
+  factors.map((f) => ({ name: f.name, levels: f.levels.map((l) => ({ name: l.name, value: l.value ?? "" })) }));
+
+export class PageService extends EventEmitter {
+  constructor(private readonly pool: Pool, private readonly notify: boolean) {
+    super();
+  }
+
+  /** Validates a definition without saving it. */
+  checkDefinition(def: PageDefinition): { factors: { name: string; levels: string[] }[]; combinations: { total: number; allowed: number; excluded: number }; dimension: number } {
+    const design = buildDesign(def);
+    return {
+      factors: design.factors.map((f) => ({ name: f.name, levels: f.levels.slice() })),
+      combinations: { total: design.totalCount, allowed: design.allowedCount, excluded: design.excludedCount },
+      dimension: design.dimension,
+    };
+  }
+
+  async create(input: PageInput): Promise<PageView> {
+    const settings = parseSettings(input.settings ?? {});
+    const segmentBy = input.segmentBy ?? [];
+    checkSegmentBy(segmentBy);
+    const factors = storedFactors(input.factors);
+    const definition = { factors, exclude: input.exclude ?? [], interactions: input.interactions ?? null };
+    const design = designOf(definition);
+    try {
+      await inTransaction(this.pool, async (client) => {
+        if (await loadPage(client, input.key)) throw fail("PAGE_EXISTS", { page: input.key }, "key");
+        const id = await insertPage(client, {
+          key: input.key, name: input.name, publicKey: newPublicKey(), status: "active", segmentBy,
+          interactions: definition.interactions, settings, baseline: baselineKey(design), factors, exclude: definition.exclude,
+        });
+        await foldInTransaction(client, id, true, this.notify);
+      });
+    } catch (error) {
+      if ((error as { code?: string }).code === "23505") throw fail("PAGE_EXISTS", { page: input.key }, "key");
+      throw asServiceError(error);
+    }
+    return this.get(input.key);
+  }
+
+  async list(): Promise<PageView[]> {
+    try {
+      const pages = await listPages(this.pool);
+      const totals = await pageTotals(this.pool, pages.map((p) => p.id));
+      return pages.map((p) => pageView(p, designOf(p), totals.get(p.id)));
+    } catch (error) {
+      throw asServiceError(error);
+    }
+  }
+
+  async get(key: string): Promise<PageView> {
+    try {
+      const page = await this.stored(key);
+      const totals = await pageTotals(this.pool, [page.id]);
+      return pageView(page, designOf(page), totals.get(page.id));
+    } catch (error) {
+      throw asServiceError(error);
+    }
+  }
+
+  async stored(key: string): Promise<StoredPage> {
+    const page = await loadPage(this.pool, key);
+    if (!page) throw fail("UNKNOWN_PAGE", { page: key }, "page");
+    return page;
+  }
+
+  async patch(key: string, patch: PagePatch): Promise<{ page: PageView; learned: Learned }> {
+    try {
+      const page = await this.stored(key);
+      const plan = planEdit(page, patch);
+      const learned = await inTransaction(this.pool, async (client) => {
+        await foldLock(client, page.id);
+        const fields: Parameters<typeof updatePageFields>[2] = {};
+        if (patch.name !== undefined) fields.name = patch.name;
+        if (patch.status !== undefined) fields.status = patch.status;
+        if (plan.settingsChanged) fields.settings = plan.settings;
+        if (plan.newDesign) {
+          fields.baseline = baselineKey(plan.newDesign);
+          fields.interactions = plan.interactions;
+        }
+        if (Object.keys(fields).length > 0 || plan.newDesign || patch.levelValues?.length) await updatePageFields(client, page.id, fields);
+        let result: Learned = plan.learned;
+        if (plan.newDesign) {
+          await replaceDefinition(client, page.id, plan.factors, plan.exclude);
+          const row = (await lockedPageRow(client, page.id))!;
+          const snapshot = row.modelVersion > 0 ? await loadSnapshot(client, page.id, row.modelVersion) : null;
+          const oldDesign = designOf(page);
+          const state = snapshot ? deserializeState(snapshot.state) : initialState(oldDesign, plan.settings);
+          const remapped = remapState(state, oldDesign, plan.newDesign, plan.settings);
+          await insertSnapshot(client, page.id, row.modelVersion + 1, serializeState(remapped), {}, await databaseNow(client));
+          await setModelVersion(client, page.id, row.modelVersion + 1, null);
+          const stale = (await openCombinations(client, page.id)).filter((c) => !servable(plan.newDesign!, c));
+          result = { ...result, droppedOpenPicks: await ignoreOpenPicks(client, page.id, stale) };
+          result.message += result.droppedOpenPicks > 0
+            ? ` ${result.droppedOpenPicks} open picks showed combinations that no longer exist; they will not be folded.`
+            : "";
+        } else {
+          for (const v of patch.levelValues ?? []) await updateLevelValue(client, page.id, v.factor, v.level, v.value);
+        }
+        // Rebuild allocations now so the edit is served at once (not at the next scheduled fold).
+        if (plan.newDesign || plan.settingsChanged || patch.status !== undefined) await foldInTransaction(client, page.id, true, this.notify);
+        return result;
+      });
+      this.emit("changed", key);
+      return { page: await this.get(key), learned };
+    } catch (error) {
+      throw asServiceError(error);
+    }
+  }
+}
+
+interface EditPlan {
+  factors: StoredFactor[]; exclude: Record<string, string>[]; interactions: [string, string][] | null;
+  settings: ReturnType<typeof parseSettings>; settingsChanged: boolean; newDesign: Design | null; learned: Learned;
+}
+
+/** Validates a page edit completely before anything is written. */
+function planEdit(page: StoredPage, patch: PagePatch): EditPlan {
+  const factors: StoredFactor[] = page.factors.map((f) => ({ name: f.name, levels: f.levels.map((l) => ({ ...l })) }));
+  let exclude = page.exclude.map((r) => ({ ...r }));
+  let interactions = page.interactions;
+  const known = () => factors.map((f) => f.name).join(", ");
+  const factorNamed = (name: string, field: string) => {
+    const factor = factors.find((f) => f.name === name);
+    if (!factor) throw fail("UNKNOWN_FACTOR", { factor: name, known: known() }, field);
+    return factor;
+  };
+  const levelNamed = (factor: StoredFactor, level: string, field: string) => {
+    const found = factor.levels.find((l) => l.name === level);
+    if (!found) throw fail("UNKNOWN_LEVEL", { level, factor: factor.name, known: factor.levels.map((l) => l.name).join(", ") }, field);
+    return found;
+  };
+  patch.removeFactors?.forEach((name, i) => {
+    factorNamed(name, `removeFactors.${i}`);
+    factors.splice(factors.findIndex((f) => f.name === name), 1);
+    // a rule or pair naming the factor can no longer mean what it meant: drop it
+    exclude = exclude.filter((rule) => !(name in rule));
+    if (interactions) interactions = interactions.filter(([a, b]) => a !== name && b !== name);
+  });
+  patch.addFactors?.forEach((f, i) => {
+    if (factors.some((x) => x.name === f.name)) throw fail("INVALID_DEFINITION", { reason: `factor "${f.name}" already exists` }, `addFactors.${i}.name`);
+    factors.push(...storedFactors([f]));
+  });
+  patch.removeLevels?.forEach((r, i) => {
+    const factor = factorNamed(r.factor, `removeLevels.${i}.factor`);
+    levelNamed(factor, r.level, `removeLevels.${i}.level`);
+    factor.levels = factor.levels.filter((l) => l.name !== r.level);
+    exclude = exclude.filter((rule) => rule[r.factor] !== r.level);
+  });
+  patch.addLevels?.forEach((l, i) => {
+    const factor = factorNamed(l.factor, `addLevels.${i}.factor`);
+    if (factor.levels.some((x) => x.name === l.name)) throw fail("INVALID_DEFINITION", { reason: `level "${l.name}" of "${l.factor}" already exists` }, `addLevels.${i}.name`);
+    factor.levels.push({ name: l.name, value: l.value ?? "" });
+  });
+  patch.levelValues?.forEach((v, i) => {
+    levelNamed(factorNamed(v.factor, `levelValues.${i}.factor`), v.level, `levelValues.${i}.level`).value = v.value;
+  });
+  const structural = Boolean(patch.removeFactors?.length || patch.addFactors?.length || patch.removeLevels?.length || patch.addLevels?.length);
+  const oldSettings = settingsOf(page);
+  const settings = patch.settings ? parseSettings({ ...oldSettings, ...patch.settings }) : oldSettings;
+  const settingsChanged = JSON.stringify(settings) !== JSON.stringify(oldSettings);
+  const newDesign = structural ? designOf({ factors, exclude, interactions }) : null;
+  return { factors, exclude, interactions, settings, settingsChanged, newDesign, learned: describe(page, patch, settingsChanged, newDesign) };
+}
+
+function describe(page: StoredPage, patch: PagePatch, settingsChanged: boolean, newDesign: Design | null): Learned {
+  const none: Learned = { action: "unchanged", message: "Nothing that affects learning changed.", keptFeatures: 0, droppedFeatures: [], addedFeatures: [], droppedOpenPicks: 0 };
+  const oldNames = designOf(page).featureNames;
+  if (newDesign) {
+    const kept = newDesign.featureNames.filter((n) => oldNames.includes(n));
+    const dropped = oldNames.filter((n) => !newDesign.featureNames.includes(n));
+    const added = newDesign.featureNames.filter((n) => !oldNames.includes(n));
+    return {
+      action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0,
+      message: `The model was remapped to the new design: ${kept.length} learned coefficients kept` +
+        (dropped.length ? `, ${dropped.length} dropped with their evidence (${dropped.join(", ")})` : "") +
+        (added.length ? `, ${added.length} new ones start from the prior (${added.join(", ")})` : "") + ".",
+    };
+  }
+  const parts: string[] = [];
+  if (patch.status === "paused" && page.status !== "paused") parts.push("Paused: visitors now get the baseline and nothing is learned until you resume; everything learned so far is kept.");
+  if (patch.status === "frozen" && page.status !== "frozen") parts.push("Frozen: each segment's visitors now get its leader with no exploration; outcomes are still folded and everything learned is kept.");
+  if (patch.status === "active" && page.status !== "active") parts.push("Resumed: serving from the learned allocations again; nothing learned was lost.");
+  if (settingsChanged) parts.push("Settings changed: everything learned is kept and the allocations were rebuilt with the new settings.");
+  return parts.length === 0 ? { ...none, keptFeatures: oldNames.length } : { ...none, action: "kept", keptFeatures: oldNames.length, message: parts.join(" ") };
+}
+

@@ -1,0 +1,169 @@
+/**
+ * The page report: per segment and pooled — visitors, conversions, status, leader and top
+ * combinations (probability of being best, rate interval, each level's value), retired
+ * combinations with reasons, expected loss, factor effects, the naive leader-vs-baseline
+ * cross-check with its warning, calibration — and the allocation history for charts. The
+ * figures are the engine's, stored by the fold loop; this module only joins them with counts.
+ * Shape: the contract's "Report JSON shape".
+ */
+import type { Pool } from "pg";
+import { calibration, crossCheck } from "../model/index.ts";
+import type { Allocation, CombinationSummary, SegmentSummary } from "../model/index.ts";
+import { loadRetired, loadSnapshot } from "../store/repositories/folds.ts";
+import { allocationHistory, pickCounts, segmentContexts, type CountRow } from "../store/repositories/reports.ts";
+import type { StoredPage } from "../store/repositories/pages.ts";
+import { levelsOf, settingsOf } from "./definition.ts";
+import { asServiceError } from "./errors.ts";
+import type { PageService } from "./pages.ts";
+
+const HISTORY_POINTS = 200;
+const HISTORY_SERIES = 6;
+const MIN_SHARE = 0.001;
+const CALIBRATION_CAP = 200_000;
+
+export interface CombinationReport extends CombinationSummary {
+  levels: Record<string, { level: string; value: string }>;
+  visitors: number;
+  conversions: number;
+}
+
+export interface SegmentReport {
+  segment: string; context: Record<string, string>;
+  visitors: number; conversions: number; folded: number;
+  status: "waiting" | "exploring" | "settled"; settledBy: "probability" | "loss" | null;
+  leader: CombinationReport | null; baseline: CombinationReport | null; top: CombinationReport[];
+  expectedLoss: number | null; expectedLossFraction: number | null;
+  effects: SegmentSummary["effects"];
+  retired: { combination: string; reason: string; figures: Record<string, unknown>; retiredAt: string; reinstatedAt: string | null; reinstateReason: string | null }[];
+  crossCheck: (ReturnType<typeof crossCheck> & { leader: Arm; baseline: Arm }) | null;
+  calibration: ReturnType<typeof calibration> | null;
+  allocation: Record<string, number>;
+}
+
+interface Arm { visitors: number; conversions: number }
+
+export interface Report {
+  page: string; status: StoredPage["status"]; modelVersion: number; lastFoldAt: string | null; generatedAt: string;
+  settings: ReturnType<typeof settingsOf>;
+  totals: { visitors: number; conversions: number; pending: number };
+  segments: SegmentReport[]; pooled: SegmentReport;
+  allocationHistory: Record<string, { version: number; at: string; shares: Record<string, number> }[]>;
+}
+
+export class ReportService {
+  constructor(private readonly pool: Pool, private readonly pages: PageService) {}
+
+  async report(key: string): Promise<Report> {
+    try {
+      const page = await this.pages.stored(key);
+      const snapshot = page.modelVersion > 0 ? await loadSnapshot(this.pool, page.id, page.modelVersion) : null;
+      const summaries = (snapshot?.summary ?? {}) as Record<string, SegmentSummary>;
+      const counts = await pickCounts(this.pool, page.id);
+      const contexts = await segmentContexts(this.pool, page.id);
+      const retired = await loadRetired(this.pool, page.id);
+      const history = await allocationHistory(this.pool, page.id, HISTORY_POINTS);
+      const current = new Map(history.filter((h) => h.version === page.modelVersion).map((h) => [h.segment, h.allocation as Allocation]));
+
+      const segmentKeys = [...new Set([...contexts.keys(), ...counts.map((c) => c.segment).filter((s) => s !== "*")])];
+      const build = (segment: string, rows: CountRow[]): SegmentReport => {
+        const summary = summaries[segment] as SegmentSummary | undefined;
+        const observed = new Map<string, Arm>();
+        for (const r of rows) {
+          const arm = observed.get(r.combination) ?? { visitors: 0, conversions: 0 };
+          arm.visitors += r.visitors;
+          arm.conversions += r.conversions;
+          observed.set(r.combination, arm);
+        }
+        const describe = (c: CombinationSummary | undefined): CombinationReport | null => c ? {
+          ...c, levels: levelsOf(page, c.combination),
+          visitors: observed.get(c.combination)?.visitors ?? 0, conversions: observed.get(c.combination)?.conversions ?? 0,
+        } : null;
+        const leader = describe(summary?.leader);
+        const baseline = describe(summary?.baseline);
+        return {
+          segment, context: segment === "*" ? {} : contexts.get(segment) ?? {},
+          visitors: sum(rows, "visitors"), conversions: sum(rows, "conversions"), folded: sum(rows, "folded"),
+          status: summary ? summary.status : "waiting", settledBy: summary?.settledBy ?? null,
+          leader, baseline, top: (summary?.top ?? []).map((c) => describe(c)!),
+          expectedLoss: summary?.expectedLoss ?? null, expectedLossFraction: summary?.expectedLossFraction ?? null,
+          effects: summary?.effects ?? [],
+          retired: retired.filter((r) => r.segment === segment).map((r) => {
+            const { reinstateReason, ...figures } = r.figures as Record<string, unknown>;
+            return {
+              combination: r.combination, reason: r.reason, figures, retiredAt: r.retiredAt.toISOString(),
+              reinstatedAt: r.reinstatedAt?.toISOString() ?? null, reinstateReason: typeof reinstateReason === "string" ? reinstateReason : null,
+            };
+          }),
+          crossCheck: naiveCheck(leader, baseline),
+          calibration: calibrationOf(summary, rows),
+          allocation: shares(current.get(segment), null),
+        };
+      };
+      const segments = segmentKeys.map((s) => build(s, counts.filter((c) => c.segment === s)))
+        .sort((a, b) => b.visitors - a.visitors || a.segment.localeCompare(b.segment));
+      const pooled = build("*", counts);
+
+      const series: Report["allocationHistory"] = {};
+      for (const h of history) {
+        const summary = summaries[h.segment];
+        const keys = (summary?.top ?? []).slice(0, HISTORY_SERIES).map((c) => c.combination);
+        (series[h.segment] ??= []).push({ version: h.version, at: h.at.toISOString(), shares: shares(h.allocation as Allocation, keys) });
+      }
+      return {
+        page: page.key, status: page.status, modelVersion: page.modelVersion,
+        lastFoldAt: page.lastFoldAt?.toISOString() ?? null, generatedAt: new Date().toISOString(), settings: settingsOf(page),
+        totals: { visitors: sum(counts, "visitors"), conversions: sum(counts, "conversions"), pending: sum(counts, "pending") },
+        segments, pooled, allocationHistory: series,
+      };
+    } catch (error) {
+      throw asServiceError(error);
+    }
+  }
+}
+
+const sum = (rows: CountRow[], field: "visitors" | "conversions" | "folded" | "pending") => rows.reduce((s, r) => s + r[field], 0);
+
+/** Serving shares of an allocation: every listed combination (≥ 0.1%), or only `keys` plus "other". */
+function shares(allocation: Allocation | undefined, keys: string[] | null): Record<string, number> {
+  if (!allocation) return {};
+  const out: Record<string, number> = {};
+  let listed = 0;
+  allocation.keys.forEach((key, i) => {
+    const p = allocation.propensities[i];
+    if (keys === null ? p >= MIN_SHARE : keys.includes(key)) {
+      out[key] = p;
+      listed += p;
+    }
+  });
+  if (keys !== null) out.other = Math.max(0, 1 - listed);
+  return out;
+}
+
+/** The naive tests need both arms served at least once. */
+function naiveCheck(leader: CombinationReport | null, baseline: CombinationReport | null): SegmentReport["crossCheck"] {
+  if (!leader || !baseline || leader.combination === baseline.combination || leader.visitors === 0 || baseline.visitors === 0) return null;
+  const a = { visitors: leader.visitors, conversions: leader.conversions };
+  const b = { visitors: baseline.visitors, conversions: baseline.conversions };
+  return { leader: a, baseline: b, ...crossCheck(a, b) };
+}
+
+/**
+ * The current posterior mean rate of each listed combination against the folded picks that showed
+ * it (in-sample: a check that the model fits what it learned from, not a forecast score).
+ */
+function calibrationOf(summary: SegmentSummary | undefined, rows: CountRow[]): SegmentReport["calibration"] {
+  if (!summary) return null;
+  const predicted = new Map<string, number>();
+  for (const c of [summary.baseline, summary.leader, ...summary.top]) predicted.set(c.combination, c.rate.mean);
+  const p: number[] = [];
+  const o: (0 | 1)[] = [];
+  for (const r of rows) {
+    const rate = predicted.get(r.combination);
+    if (rate === undefined) continue;
+    for (let i = 0; i < r.folded && p.length < CALIBRATION_CAP; i++) {
+      p.push(rate);
+      o.push(i < r.foldedConversions ? 1 : 0);
+    }
+  }
+  return p.length === 0 ? null : calibration(p, o);
+}

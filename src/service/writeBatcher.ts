@@ -1,0 +1,93 @@
+/**
+ * Group commit for picks and outcomes: a write is acknowledged only after the transaction holding
+ * it has committed, and writes that arrive while a commit is in flight are gathered into the
+ * next transaction. At low load every write commits alone with no added delay; under load many
+ * share one commit (one WAL flush) instead of paying one each.
+ */
+import type { Pool, PoolClient } from "pg";
+import { fail, FacetwiseError } from "../errors.ts";
+import { asServiceError } from "./errors.ts";
+
+type Work<T> = (client: PoolClient) => Promise<T>;
+
+interface Item {
+  work: Work<unknown>;
+  resolve(value: unknown): void;
+  reject(error: unknown): void;
+}
+
+export interface BatcherStats { batches: number; writes: number; largest: number }
+
+export class WriteBatcher {
+  private queue: Item[] = [];
+  private running: Promise<void> | null = null;
+  private closed = false;
+  readonly stats: BatcherStats = { batches: 0, writes: 0, largest: 0 };
+
+  constructor(private readonly pool: Pool, private readonly maxBatch = 200) {}
+
+  /**
+   * Queues `work` for the next transaction; resolves with its result once committed. `work` must
+   * use only the client it is given, and must throw only FacetwiseErrors before writing anything
+   * (those fail that item alone; any other error retries the batch's items one by one).
+   */
+  submit<T>(work: Work<T>): Promise<T> {
+    if (this.closed) return Promise.reject(fail("DATABASE_UNAVAILABLE", { reason: "the server is shutting down" }));
+    return new Promise<T>((resolve, reject) => {
+      this.queue.push({ work, resolve: resolve as (v: unknown) => void, reject });
+      if (!this.running) this.running = this.drain();
+    });
+  }
+
+  /** Stops accepting writes and waits for the queued ones to commit. */
+  async close(): Promise<void> {
+    this.closed = true;
+    await this.running;
+  }
+
+  private async drain(): Promise<void> {
+    while (this.queue.length > 0) {
+      const batch = this.queue.splice(0, this.maxBatch);
+      await this.commit(batch, true);
+    }
+    this.running = null;
+  }
+
+  private async commit(batch: Item[], retryAlone: boolean): Promise<void> {
+    const outcomes: { ok: boolean; value: unknown }[] = [];
+    let client: PoolClient | undefined;
+    let broken = false;
+    try {
+      client = await this.pool.connect();
+      await client.query("BEGIN");
+      for (const item of batch) {
+        try {
+          outcomes.push({ ok: true, value: await item.work(client) });
+        } catch (error) {
+          if (!(error instanceof FacetwiseError)) throw error;
+          outcomes.push({ ok: false, value: error });
+        }
+      }
+      await client.query("COMMIT");
+      this.stats.batches += 1;
+      this.stats.writes += batch.length;
+      this.stats.largest = Math.max(this.stats.largest, batch.length);
+    } catch (error) {
+      if (client) await client.query("ROLLBACK").catch(() => (broken = true));
+      client?.release(broken || undefined);
+      client = undefined;
+      const mapped = asServiceError(error);
+      if (retryAlone && batch.length > 1 && mapped.code !== "DATABASE_UNAVAILABLE") {
+        // One bad write must not sink the others: replay each in its own transaction.
+        for (const item of batch) await this.commit([item], false);
+        return;
+      }
+      if (mapped.code === "INTERNAL") console.error(`facetwise: write failed (${mapped.message}):`, error);
+      for (const item of batch) item.reject(mapped);
+      return;
+    } finally {
+      client?.release();
+    }
+    batch.forEach((item, i) => (outcomes[i].ok ? item.resolve(outcomes[i].value) : item.reject(outcomes[i].value)));
+  }
+}
