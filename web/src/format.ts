@@ -1,0 +1,112 @@
+/** Turning the server's numbers and keys into the words and figures a marketer reads. */
+import type { RateInterval, RetiredReport } from "./types.ts";
+
+const count = new Intl.NumberFormat("en", { maximumFractionDigits: 0 });
+
+export function n(value: number | null | undefined): string {
+  return value === null || value === undefined ? "—" : count.format(value);
+}
+
+/** A fraction as a percentage with enough digits to tell small rates apart (3.4 %, 0.42 %). */
+export function pct(value: number | null | undefined, digits?: number): string {
+  if (value === null || value === undefined || !Number.isFinite(value)) return "—";
+  const p = value * 100;
+  const d = digits ?? (Math.abs(p) >= 10 ? 1 : Math.abs(p) >= 1 ? 2 : Math.abs(p) >= 0.01 || p === 0 ? 2 : 3);
+  if (p !== 0 && Math.abs(p) < 0.001) return p > 0 ? "< 0.001 %" : "> −0.001 %";
+  return `${p.toFixed(d)} %`;
+}
+
+/** A probability of being best: keeps "> 99.9 %" and "< 0.1 %" honest instead of rounding to 100 or 0. */
+export function prob(value: number | null | undefined): string {
+  if (value === null || value === undefined) return "—";
+  if (value >= 0.9995 && value < 1) return "> 99.9 %";
+  if (value > 0 && value < 0.0005) return "< 0.1 %";
+  return `${(value * 100).toFixed(1)} %`;
+}
+
+export function rateWithInterval(rate: RateInterval | null | undefined): string {
+  if (!rate) return "—";
+  return `${pct(rate.mean)} (95 % interval ${pct(rate.lower)} – ${pct(rate.upper)})`;
+}
+
+export function ratio(value: number): string {
+  return value >= 10 ? value.toFixed(1) : value.toFixed(2);
+}
+
+/** "source=search|campaign=spring" → "source search · campaign spring"; the pooled model gets a name. */
+export function segmentLabel(segment: string): string {
+  if (segment === "*") return "All traffic (pooled)";
+  if (segment === "all") return "All visitors";
+  return segment
+    .split("|")
+    .map((part) => part.replace("=", ": "))
+    .join(" · ");
+}
+
+let factorOrder: string[] = [];
+
+/** The page's factor names in order, so keys whose names contain "=" or "|" still split correctly. */
+export function setFactorOrder(names: string[]): void {
+  factorOrder = names;
+}
+
+/** The levels of a combination key in factor order: "headline=a|hero=b" → [["headline","a"],["hero","b"]]. */
+export function keyParts(key: string): [string, string][] {
+  const out: [string, string][] = [];
+  let rest = key;
+  for (let i = 0; i < factorOrder.length; i += 1) {
+    const name = factorOrder[i];
+    if (!rest.startsWith(`${name}=`)) break;
+    rest = rest.slice(name.length + 1);
+    const next = factorOrder[i + 1];
+    const end = next === undefined ? rest.length : rest.indexOf(`|${next}=`);
+    if (end < 0) break;
+    out.push([name, rest.slice(0, end)]);
+    rest = rest.slice(end + 1);
+    if (next === undefined && out.length === factorOrder.length) return out;
+  }
+  // keys of another design (or before the page is known): split on the separators
+  return key.split("|").map((part) => {
+    const at = part.indexOf("=");
+    return [part.slice(0, at), part.slice(at + 1)];
+  });
+}
+
+/** A compact one-line name for a combination: the level names joined by " / ". */
+export function comboShort(key: string): string {
+  if (key === "other") return "all others";
+  return keyParts(key)
+    .map(([, level]) => level)
+    .join(" / ");
+}
+
+export function when(iso: string | null | undefined, now = Date.now()): string {
+  if (!iso) return "never";
+  const t = Date.parse(iso);
+  const seconds = Math.round((now - t) / 1000);
+  const rel =
+    seconds < 5 ? "just now"
+    : seconds < 90 ? `${seconds} s ago`
+    : seconds < 5400 ? `${Math.round(seconds / 60)} min ago`
+    : seconds < 129600 ? `${Math.round(seconds / 3600)} h ago`
+    : `${Math.round(seconds / 86400)} days ago`;
+  return rel;
+}
+
+export function absoluteTime(iso: string): string {
+  return new Date(iso).toLocaleString("en-GB", { dateStyle: "medium", timeStyle: "medium" });
+}
+
+/** The reason a combination was retired, in plain words, with the figures behind it. */
+export function retiredReason(entry: RetiredReport, retireProbability: number | null | undefined): string {
+  const f = entry.figures;
+  if (entry.reason === "dominated") {
+    const floor = retireProbability ? ` (the floor is ${prob(retireProbability)})` : "";
+    return (
+      `Its chance of being the best stayed at ${prob(f.probabilityBest)}${floor} for ${f.folds} ` +
+      `consecutive updates, and even its most optimistic rate, ${pct(f.upper)}, is below the leader's ` +
+      `most pessimistic rate, ${pct(f.leaderLower)}. Showing it again would very likely waste visitors.`
+    );
+  }
+  return entry.reason;
+}

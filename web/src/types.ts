@@ -1,0 +1,137 @@
+/** The server's JSON shapes the console reads (see the "Report JSON shape" section of the HTTP API). */
+
+export interface LevelSpec { name: string; value?: string }
+export interface FactorSpec { name: string; levels: LevelSpec[] }
+export type Exclusion = Record<string, string>;
+export type Settings = Record<string, number | null>;
+export type PageStatus = "active" | "paused" | "frozen";
+
+export interface CombinationCounts { total: number; allowed: number; excluded: number }
+
+export interface Page {
+  key: string;
+  name: string;
+  publicKey: string;
+  status: PageStatus;
+  demo: boolean;
+  factors: FactorSpec[];
+  exclude: Exclusion[];
+  segmentBy: string[];
+  interactions: [string, string][] | null;
+  settings: Settings;
+  baseline: string;
+  combinations: CombinationCounts;
+  dimension: number;
+  modelVersion: number;
+  lastFoldAt: string | null;
+  createdAt: string;
+  updatedAt: string;
+  totals: { visitors: number; conversions: number; segments: number };
+}
+
+export interface PageDefinitionBody {
+  factors: FactorSpec[];
+  exclude?: Exclusion[];
+  segmentBy?: string[];
+  interactions?: [string, string][] | null;
+  settings?: Settings;
+}
+
+export interface DefinitionCheck { factors: number; combinations: CombinationCounts; dimension: number }
+
+export interface LearnedNote {
+  action: "unchanged" | "kept" | "remapped";
+  message: string;
+  keptFeatures: number;
+  droppedFeatures: string[];
+  addedFeatures: string[];
+  droppedOpenPicks: number;
+}
+
+export interface RateInterval { mean: number; lower: number; upper: number }
+
+export interface CombinationReport {
+  combination: string;
+  levels: Record<string, { level: string; value?: string | null }>;
+  probabilityBest: number;
+  rate: RateInterval;
+  visitors: number;
+  conversions: number;
+}
+
+export interface FactorEffect {
+  factor: string;
+  reference: string;
+  levels: { level: string; oddsRatio: number; lower: number; upper: number }[];
+}
+
+export interface RetiredReport {
+  combination: string;
+  reason: string;
+  figures: { probabilityBest: number; upper: number; leader: string; leaderLower: number; folds: number };
+  retiredAt: string;
+  reinstatedAt: string | null;
+  reinstateReason: string | null;
+}
+
+export interface Estimate { estimate: number; lower: number; upper: number }
+
+export interface CrossCheck {
+  leader: { visitors: number; conversions: number };
+  baseline: { visitors: number; conversions: number };
+  zTest: { z: number; pValue: number };
+  fisher: { less: number; greater: number; twoSided: number };
+  lift: { absolute: Estimate; relative: Estimate };
+  warning: string;
+}
+
+export interface SegmentReport {
+  segment: string;
+  context: Record<string, string>;
+  visitors: number;
+  conversions: number;
+  folded: number;
+  status: "waiting" | "exploring" | "settled";
+  settledBy: "probability" | "loss" | null;
+  leader: CombinationReport | null;
+  baseline: CombinationReport | null;
+  top: CombinationReport[];
+  expectedLoss: number | null;
+  expectedLossFraction: number | null;
+  effects: FactorEffect[];
+  retired: RetiredReport[];
+  crossCheck: CrossCheck | null;
+  allocation: Record<string, number>;
+}
+
+export interface AllocationPoint { version: number; at: string; shares: Record<string, number> }
+
+export interface Report {
+  page: string;
+  status: PageStatus;
+  modelVersion: number;
+  lastFoldAt: string | null;
+  generatedAt: string;
+  settings: Settings;
+  totals: { visitors: number; conversions: number; pending: number };
+  segments: SegmentReport[];
+  pooled: SegmentReport;
+  allocationHistory: Record<string, AllocationPoint[]>;
+}
+
+export interface ExportJson {
+  page: string;
+  modelVersion: number;
+  generatedAt: string;
+  segments: {
+    segment: string;
+    context: Record<string, string>;
+    status: string;
+    combination: string;
+    levels: Record<string, { level: string; value?: string | null }>;
+    probabilityBest: number | null;
+    rate: RateInterval | null;
+  }[];
+}
+
+export interface SessionInfo { ok: boolean; scope: string; demoPage: string | null }

@@ -1,0 +1,238 @@
+/**
+ * One page: its header (status, totals, last model update), the demo-traffic control on the demo
+ * page, and four tabs — results per segment, retired combinations, export and integration, and
+ * managing the running page. Figures refresh by polling the report; the view keeps its own state
+ * (tab, chosen segment, open panels) and re-draws only the figures, so scroll position, focus and
+ * anything typed into a form survive every refresh.
+ */
+import { api, ApiError } from "../api.ts";
+import { h, replace } from "../dom.ts";
+import { n, pct, setFactorOrder, when } from "../format.ts";
+import { pageHref, type Route, type View } from "../shell.ts";
+import type { Page, Report } from "../types.ts";
+import { statusBadge } from "./parts.ts";
+import { renderResults } from "./results.ts";
+import { renderRetired, retiredCount } from "./retired.ts";
+import { renderExport } from "./exportTab.ts";
+import { renderManage } from "./manage.ts";
+import { demoControl } from "./demo.ts";
+
+export interface UiState {
+  segment: string | null;
+  open: Set<string>;
+}
+
+const tabs = [
+  { id: "results", label: "Results" },
+  { id: "retired", label: "Retired" },
+  { id: "export", label: "Export & integrate" },
+  { id: "manage", label: "Manage" },
+] as const;
+type TabId = (typeof tabs)[number]["id"];
+
+const FAST_POLL_MS = 2_000;
+const SLOW_POLL_MS = 5_000;
+
+export function renderPageView(main: HTMLElement, route: Route): View {
+  const key = route.key as string;
+  let tab: TabId = tabIdOf(route.tab);
+  let page: Page | null = null;
+  let report: Report | null = null;
+  let timer = 0;
+  let disposed = false;
+  let fastUntil = 0;
+  const ui: UiState = { segment: null, open: new Set() };
+
+  const title = h("h1", null, "…");
+  const keyLine = h("p", { class: "key" }, key);
+  const statusSlot = h("span");
+  const totals = h("p", { class: "totals" });
+  const freshness = h("p", { class: "hint freshness", "aria-live": "off" });
+  const errorLine = h("p", { class: "form-error", role: "alert" });
+  const demoSlot = h("div");
+  const tabBar = h("div", { class: "tabs", role: "tablist", "aria-label": "Page sections" });
+  const panel = h("section", { class: "tab-panel", role: "tabpanel", tabindex: "-1" });
+  let manageMounted = false;
+  let exportMounted: ReturnType<typeof renderExport> | null = null;
+
+  replace(
+    main,
+    h(
+      "header",
+      { class: "page-head" },
+      h("div", { class: "page-title" }, title, statusSlot),
+      keyLine,
+      totals,
+      freshness,
+      errorLine,
+    ),
+    demoSlot,
+    tabBar,
+    panel,
+  );
+
+  function drawTabs(): void {
+    const retiredN = report ? retiredCount(report) : 0;
+    replace(
+      tabBar,
+      tabs.map((t) =>
+        h(
+          "a",
+          {
+            href: pageHref(key, t.id),
+            role: "tab",
+            id: `tab-${t.id}`,
+            "aria-selected": String(t.id === tab),
+            "aria-controls": "tab-panel",
+            tabindex: t.id === tab ? "0" : "-1",
+            class: t.id === tab ? "tab current" : "tab",
+            onkeydown: (event: Event) => {
+              const e = event as KeyboardEvent;
+              const i = tabs.findIndex((x) => x.id === t.id);
+              const j = e.key === "ArrowRight" ? i + 1 : e.key === "ArrowLeft" ? i - 1 : null;
+              if (j === null) return;
+              e.preventDefault();
+              const next = tabs[(j + tabs.length) % tabs.length];
+              location.hash = pageHref(key, next.id);
+              setTimeout(() => document.getElementById(`tab-${next.id}`)?.focus(), 0);
+            },
+          },
+          t.label,
+          t.id === "retired" && retiredN > 0 ? h("span", { class: "count-pill" }, String(retiredN)) : null,
+        ),
+      ),
+    );
+    panel.id = "tab-panel";
+    panel.setAttribute("aria-labelledby", `tab-${tab}`);
+  }
+
+  function drawHead(): void {
+    if (!page) return;
+    title.textContent = page.name;
+    document.title = `${page.name} · facetwise`;
+    replace(statusSlot, statusBadge(report?.status ?? page.status));
+    const t = report?.totals ?? { ...page.totals, pending: 0 };
+    const rate = t.visitors > 0 ? t.conversions / t.visitors : null;
+    replace(
+      totals,
+      h("span", null, h("strong", null, n(t.visitors)), " visitors"),
+      h("span", null, h("strong", null, n(t.conversions)), " conversions"),
+      h("span", null, h("strong", null, pct(rate)), " overall"),
+      t.pending ? h("span", null, h("strong", null, n(t.pending)), " still inside their attribution window") : null,
+    );
+    const version = report?.modelVersion ?? page.modelVersion;
+    freshness.textContent =
+      version > 0
+        ? `Model update ${n(version)}, ${when(report?.lastFoldAt ?? page.lastFoldAt)} · figures refresh on their own`
+        : "No model update yet: the first one follows the first visits · figures refresh on their own";
+  }
+
+  function drawPanel(fromPoll: boolean): void {
+    if (!page) return;
+    if (tab === "manage") {
+      // a form: mounted once per visit to the tab, never re-drawn under the user's typing
+      if (!manageMounted) {
+        replace(panel, renderManage(page, (updated) => {
+          page = updated;
+          setFactorOrder(updated.factors.map((f) => f.name));
+          drawHead();
+        }));
+        manageMounted = true;
+      }
+      return;
+    }
+    manageMounted = false;
+    if (tab === "export") {
+      if (!exportMounted) {
+        exportMounted = renderExport(page);
+        replace(panel, exportMounted.element);
+      }
+      if (fromPoll || report) exportMounted.refresh(report);
+      return;
+    }
+    exportMounted = null;
+    if (!report) {
+      replace(panel, h("p", { class: "hint" }, "Loading the report…"));
+      return;
+    }
+    const focusKey = (document.activeElement as HTMLElement | null)?.dataset?.focusKey;
+    const width = panel.clientWidth || 640;
+    if (tab === "results") replace(panel, renderResults(report, ui, width, () => drawPanel(false)));
+    else replace(panel, renderRetired(report));
+    if (focusKey) panel.querySelector<HTMLElement>(`[data-focus-key="${CSS.escape(focusKey)}"]`)?.focus();
+  }
+
+  async function load(): Promise<void> {
+    try {
+      const [p, r] = await Promise.all([
+        api<Page>("GET", `/pages/${encodeURIComponent(key)}`),
+        api<Report>("GET", `/pages/${encodeURIComponent(key)}/report`),
+      ]);
+      if (disposed) return;
+      const firstLoad = page === null;
+      page = p;
+      report = r;
+      setFactorOrder(p.factors.map((f) => f.name));
+      errorLine.textContent = "";
+      drawHead();
+      drawTabs();
+      if (firstLoad && page.demo) {
+        replace(demoSlot, demoControl(page, () => {
+          fastUntil = Date.now() + 60_000;
+          schedule(500);
+        }));
+      }
+      drawPanel(!firstLoad);
+    } catch (error) {
+      if (disposed) return;
+      if (error instanceof ApiError && error.status === 404) {
+        replace(main, h("div", { class: "panel" }, h("h1", null, "No such page"),
+          h("p", null, `There is no page with the key “${key}”. `, h("a", { href: "#/" }, "See all pages"), ".")));
+        disposed = true;
+        return;
+      }
+      errorLine.textContent = `Could not refresh: ${(error as Error).message} Showing the last figures received.`;
+    }
+    schedule(Date.now() < fastUntil ? FAST_POLL_MS : SLOW_POLL_MS);
+  }
+
+  function schedule(ms: number): void {
+    if (disposed) return;
+    clearTimeout(timer);
+    timer = window.setTimeout(load, ms);
+  }
+
+  let resizeTimer = 0;
+  const onResize = () => {
+    clearTimeout(resizeTimer);
+    resizeTimer = window.setTimeout(() => {
+      if (tab === "results") drawPanel(false);
+    }, 150);
+  };
+  window.addEventListener("resize", onResize);
+
+  drawTabs();
+  void load();
+
+  return {
+    update(next: Route): boolean {
+      if (next.name !== "page" || next.key !== key) return false;
+      const nextTab = tabIdOf(next.tab);
+      if (nextTab !== tab) {
+        tab = nextTab;
+        drawTabs();
+        drawPanel(false);
+      }
+      return true;
+    },
+    dispose() {
+      disposed = true;
+      clearTimeout(timer);
+      window.removeEventListener("resize", onResize);
+    },
+  };
+}
+
+function tabIdOf(value: string | undefined): TabId {
+  return (tabs.find((t) => t.id === value)?.id ?? "results") as TabId;
+}
