@@ -1,0 +1,68 @@
+/**
+ * When a pick's outcome reaches the policy, the way the server does it (DESIGN.md glossary,
+ * "attribution window"): a conversion is reported at once, so a converting pick matures
+ * immediately; a pick that does not convert matures only when its attribution window closes.
+ *
+ * This creates a delayed-feedback asymmetry: at any moment the matured data holds the recent
+ * conversions but not yet the recent non-conversions, so combinations served a lot lately look
+ * better than they are until their windows close. `holdConversions` switches to the symmetric
+ * rule (every pick, converting or not, matures when its window closes) so the harness can measure
+ * what the asymmetry costs (`facetwise simulate --maturity window`).
+ */
+export type MaturityRule = "server" | "window";
+
+export type OnMature = (segment: number, combination: number, converted: boolean) => void;
+
+export class MaturityQueue {
+  private visitor = new Float64Array(1024);
+  private segment = new Uint16Array(1024);
+  private combination = new Int32Array(1024);
+  private converted = new Uint8Array(1024);
+  private head = 0;
+  private size = 0;
+
+  constructor(
+    private readonly windowVisitors: number,
+    private readonly rule: MaturityRule,
+    private readonly onMature: OnMature,
+  ) {}
+
+  /** Records visitor `visitor`'s pick. */
+  add(visitor: number, segment: number, combination: number, converted: boolean): void {
+    if (converted && this.rule === "server") {
+      this.onMature(segment, combination, true);
+      return;
+    }
+    if (this.size === this.visitor.length) this.grow();
+    const at = (this.head + this.size) % this.visitor.length;
+    this.visitor[at] = visitor;
+    this.segment[at] = segment;
+    this.combination[at] = combination;
+    this.converted[at] = converted ? 1 : 0;
+    this.size++;
+  }
+
+  /** Matures every waiting pick whose window has closed by visitor index `now` (FIFO: windows are equal). */
+  drain(now: number): void {
+    const capacity = this.visitor.length;
+    while (this.size > 0 && this.visitor[this.head]! + this.windowVisitors <= now) {
+      this.onMature(this.segment[this.head]!, this.combination[this.head]!, this.converted[this.head] === 1);
+      this.head = (this.head + 1) % capacity;
+      this.size--;
+    }
+  }
+
+  private grow(): void {
+    const capacity = this.visitor.length;
+    const order = (i: number): number => (this.head + i) % capacity;
+    const copy = <T extends Float64Array | Uint16Array | Int32Array | Uint8Array>(from: T, to: T): T => {
+      for (let i = 0; i < this.size; i++) to[i] = from[order(i)]!;
+      return to;
+    };
+    this.visitor = copy(this.visitor, new Float64Array(capacity * 2));
+    this.segment = copy(this.segment, new Uint16Array(capacity * 2));
+    this.combination = copy(this.combination, new Int32Array(capacity * 2));
+    this.converted = copy(this.converted, new Uint8Array(capacity * 2));
+    this.head = 0;
+  }
+}
