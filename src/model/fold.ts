@@ -114,7 +114,7 @@ export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Si
   for (const [segment, combos] of merged) {
     if (combos.size === 0) continue;
     const count = combos.size;
-    const block: RowBlock = { count, m, idx: new Int32Array(count * m), n: new Float64Array(count), k: new Float64Array(count) };
+    const block: RowBlock = { count, m, idx: new Int32Array(count * m), x: new Float64Array(count * m).fill(1), n: new Float64Array(count), k: new Float64Array(count) };
     let r = 0;
     let visitors = 0;
     let conversions = 0;

@@ -50,13 +50,16 @@ export interface FoldCycleOutput {
   skipped: { rows: number; visitors: number };
 }
 
-export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
+/**
+ * Steps 1–2 alone: forgetting and the fold, without allocating (the benchmark's fold, and callers
+ * that only need the updated state).
+ */
+export function foldState(input: Pick<FoldCycleInput, "design" | "settings" | "state" | "rows" | "now">): { state: ModelState; skipped: FoldCycleOutput["skipped"] } {
   const { design, settings, now } = input;
   checkStateMatches(input.state, design);
   const w = forgettingWeight(input.state.lastFoldAt, now, settings.halfLifeDays);
   const forgotten = forget(input.state, w);
   const grouped = groupRows(design, input.rows, forgotten.sites, settings.maxSegments);
-
   const sites = new Map(forgotten.sites);
   if (grouped.bySegment.size > 0) {
     const before = computePosteriors(design, settings, forgotten.sites, grouped.bySegment.keys());
@@ -64,7 +67,14 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
       sites.set(segment, foldSegment(design, segmentPosterior(before, segment), forgotten.sites.get(segment), rows, segment));
     }
   }
+  const lastFoldAt = Math.max(now, input.state.lastFoldAt ?? now);
+  return { state: { ...forgotten, sites, lastFoldAt }, skipped: grouped.skipped };
+}
 
+export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
+  const { design, settings, now } = input;
+  const folded = foldState(input);
+  const { sites } = folded.state;
   const requested = [...new Set(input.segments)].filter((s) => s !== POOLED && s !== OVERFLOW_SITE);
   const own = requested.filter((s) => sites.has(s));
   const post = computePosteriors(design, settings, sites, own);
@@ -79,7 +89,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
 
   const allocations: Record<string, Allocation> = {};
   const summaries: Record<string, SegmentSummary> = {};
-  const dominated = new Map(forgotten.dominated);
+  const dominated = new Map(folded.state.dominated);
   const reinstatedBySegment = new Map<string, Map<string, string>>();
   const newlyRetired: RetiredEntry[] = [];
   for (const segment of [POOLED, ...own]) {
@@ -92,7 +102,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
       now,
       frozen: input.frozen === true,
       active: activeBySegment.get(segment) ?? new Map(),
-      counters: forgotten.dominated.get(segment) ?? new Map(),
+      counters: folded.state.dominated.get(segment) ?? new Map(),
     });
     allocations[segment] = round.allocation;
     summaries[segment] = round.summary;
@@ -113,6 +123,5 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   });
   retired.push(...newlyRetired);
 
-  const state: ModelState = { ...forgotten, sites, dominated, lastFoldAt: now };
-  return { state, allocations, summaries, retired, skipped: grouped.skipped };
+  return { state: { ...folded.state, dominated }, allocations, summaries, retired, skipped: folded.skipped };
 }

@@ -22,7 +22,7 @@ export { createRng, type Rng } from "./rng.ts";
 export { deserializeState, initialState, serializeState, type ModelState } from "./state.ts";
 export { remapState } from "./remap.ts";
 export type { FoldRow } from "./fold.ts";
-export { foldCycle, POOLED, type FoldCycleInput, type FoldCycleOutput } from "./foldCycle.ts";
+export { foldCycle, foldState, POOLED, type FoldCycleInput, type FoldCycleOutput } from "./foldCycle.ts";
 export { pickFrom, propensityOf, type Allocation } from "./allocation.ts";
 export type { RetiredEntry } from "./retirement.ts";
 export type { CombinationSummary, FactorEffect, RateInterval, SegmentSummary } from "./summary.ts";

@@ -14,11 +14,15 @@ import { fail } from "../errors.ts";
 import { factorSpd } from "./linalg.ts";
 import { logSigmoid, sigmoid, sigmoidVariance } from "./logistic.ts";
 
-/** Aggregated rows: row r's active features are idx[r*m … r*m+m) (padded with index d). */
+/**
+ * Aggregated rows in sparse form: row r's features are idx[r*m … r*m+m) (padded with index d,
+ * whose coefficient slot is always 0) with values x[…] (1 for the design's indicator features).
+ */
 export interface RowBlock {
   count: number;
   m: number;
   idx: Int32Array;
+  x: Float64Array;
   n: Float64Array;
   k: Float64Array;
 }
@@ -45,10 +49,10 @@ function negLogPosterior(theta: Float64Array, d: number, p: Float64Array, mu: Fl
     prior += di * s;
   }
   let loglik = 0;
-  const { m, idx, n, k } = rows;
+  const { m, idx, x, n, k } = rows;
   for (let r = 0; r < rows.count; r++) {
     let eta = 0;
-    for (let a = r * m, end = a + m; a < end; a++) eta += theta[idx[a]];
+    for (let a = r * m, end = a + m; a < end; a++) eta += theta[idx[a]] * x[a];
     loglik += k[r] * logSigmoid(eta) + (n[r] - k[r]) * logSigmoid(-eta);
   }
   return 0.5 * prior - loglik;
@@ -57,19 +61,20 @@ function negLogPosterior(theta: Float64Array, d: number, p: Float64Array, mu: Fl
 /** Σ w_r x_r x_rᵀ with w_r = n_r p_r (1−p_r) at θ (upper and lower triangles filled). */
 function dataHessian(theta: Float64Array, d: number, rows: RowBlock): Float64Array {
   const h = new Float64Array(d * d);
-  const { m, idx, n } = rows;
+  const { m, idx, x, n } = rows;
   for (let r = 0; r < rows.count; r++) {
     const base = r * m;
     let eta = 0;
-    for (let a = base; a < base + m; a++) eta += theta[idx[a]];
+    for (let a = base; a < base + m; a++) eta += theta[idx[a]] * x[a];
     const w = n[r] * sigmoidVariance(eta);
     if (w === 0) continue;
     for (let a = base; a < base + m; a++) {
       const i = idx[a];
       if (i === d) continue;
+      const wi = w * x[a];
       for (let b = base; b < base + m; b++) {
         const j = idx[b];
-        if (j !== d) h[i * d + j] += w;
+        if (j !== d) h[i * d + j] += wi * x[b];
       }
     }
   }
@@ -96,12 +101,12 @@ export function laplaceFit(prior: { precision: Float64Array; mean: Float64Array 
       for (let j = 0; j < d; j++) s += p[i * d + j] * (theta[j] - mu[j]);
       grad[i] = s;
     }
-    const { m, idx, n, k } = rows;
+    const { m, idx, x, n, k } = rows;
     for (let r = 0; r < rows.count; r++) {
       let eta = 0;
-      for (let a = r * m; a < r * m + m; a++) eta += theta[idx[a]];
+      for (let a = r * m; a < r * m + m; a++) eta += theta[idx[a]] * x[a];
       const resid = k[r] - n[r] * sigmoid(eta);
-      for (let a = r * m; a < r * m + m; a++) if (idx[a] !== d) grad[idx[a]] -= resid;
+      for (let a = r * m; a < r * m + m; a++) if (idx[a] !== d) grad[idx[a]] -= resid * x[a];
     }
     const h = dataHessian(theta, d, rows);
     for (let i = 0; i < d * d; i++) h[i] += p[i];

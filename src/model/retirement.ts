@@ -4,7 +4,10 @@
  * AND its upper 95% credible bound on the conversion rate is below the leader's lower bound.
  * A retired combination is no longer served, but it is still scored every fold; as soon as the
  * rule no longer holds (typically after forgetting widened the posterior) it is reinstated and the
- * reinstatement is recorded with its reason. The rule is common practice for pruning arms in
+ * reinstatement is recorded with its reason. "No longer holds" must not mean Monte-Carlo noise:
+ * with M samples a probability of 0.001 is one lucky sample, so the probability part counts only
+ * when the number of samples in which the combination is best would be unlikely (< 1%) under
+ * Binomial(M, retireProbability) — the upper tail of the binomial count of the sampler itself. The rule is common practice for pruning arms in
  * Bayesian adaptive designs (no single source); the thresholds are page settings.
  */
 import type { PageSettings } from "./settings.ts";
@@ -41,8 +44,23 @@ export interface RetirementUpdate {
   reinstated: Map<string, string>;
 }
 
+/** Smallest count x with P(X ≥ x) < 1% for X ~ Binomial(M, p): a count this high is not sampling noise. */
+export function significantCount(samples: number, p: number): number {
+  if (p <= 0) return 1;
+  // pmf(0) in logs, then pmf(x+1) = pmf(x)·(M−x)/(x+1)·p/(1−p); tail = 1 − cdf.
+  let pmf = Math.exp(samples * Math.log1p(-p));
+  let cdf = 0;
+  for (let x = 0; x <= samples; x++) {
+    if (1 - cdf < 0.01) return x;
+    cdf += pmf;
+    pmf *= ((samples - x) / (x + 1)) * (p / (1 - p));
+  }
+  return samples + 1;
+}
+
 export function updateRetirement(input: RetirementInput): RetirementUpdate {
   const { settings, keys } = input;
+  const risen = significantCount(settings.samples, settings.retireProbability) / settings.samples;
   const counters = new Map<string, number>();
   const retired: RetiredEntry[] = [];
   const reinstated = new Map<string, string>();
@@ -53,10 +71,10 @@ export function updateRetirement(input: RetirementInput): RetirementUpdate {
     const upper = input.upper[i];
     const dominated = i !== input.leader && p < settings.retireProbability && upper < input.leaderLower;
     if (input.active.has(key)) {
-      if (!dominated) {
-        reinstated.set(key, p >= settings.retireProbability
-          ? `probability of being best rose to ${p.toPrecision(3)} (≥ ${settings.retireProbability})`
-          : `upper bound ${upper.toPrecision(3)} is no longer below the leader's lower bound ${input.leaderLower.toPrecision(3)}`);
+      if (upper >= input.leaderLower) {
+        reinstated.set(key, `upper bound ${upper.toPrecision(3)} is no longer below the leader's lower bound ${input.leaderLower.toPrecision(3)}`);
+      } else if (p >= risen) {
+        reinstated.set(key, `probability of being best rose to ${p.toPrecision(3)} (above ${settings.retireProbability} beyond sampling noise)`);
       }
       continue;
     }
