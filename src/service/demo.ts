@@ -7,6 +7,7 @@
  * newsletter visitors prefer other pages. Short fold interval and attribution window (seconds)
  * so the console shows learning within a minute.
  */
+import { setMaxListeners } from "node:events";
 import { setTimeout as sleep } from "node:timers/promises";
 import { createRng, type Rng } from "../model/index.ts";
 import { countPages } from "../store/repositories/pages.ts";
@@ -100,9 +101,13 @@ export class DemoTraffic {
   private readonly runs = new Set<Promise<void>>();
   private sequence = 0;
 
-  constructor(private readonly picks: PickService, private readonly outcomes: OutcomeService, private readonly pages: PageService) {}
+  constructor(private readonly picks: PickService, private readonly outcomes: OutcomeService, private readonly pages: PageService) {
+    // every delayed conversion waits on this one signal
+    setMaxListeners(0, this.controller.signal);
+  }
 
-  async start(pageKey: string, visitors: number, seconds = 30): Promise<{ accepted: number; running: true }> {
+  /** Streams `visitors` over `seconds` (default: 100 visitors a second, at most 30 s). */
+  async start(pageKey: string, visitors: number, seconds = Math.min(30, visitors / 100)): Promise<{ accepted: number; running: true }> {
     if (pageKey !== DEMO_PAGE_KEY) throw fail("NOT_DEMO_PAGE", { page: pageKey }, "page");
     const page = await this.pages.stored(pageKey);
     const run = this.stream(page.publicKey, visitors, seconds).catch((error: unknown) => {
@@ -116,7 +121,7 @@ export class DemoTraffic {
   private async stream(publicKey: string, visitors: number, seconds: number): Promise<void> {
     const rng = createRng(Date.now() % 2 ** 31);
     const batch = 10;
-    const pause = Math.max(2, (seconds * 1000 * batch) / visitors);
+    const pause = (seconds * 1000 * batch) / visitors;
     const pending: Promise<unknown>[] = [];
     const run = ++this.sequence;
     for (let i = 0; i < visitors && !this.controller.signal.aborted; i += batch) {
