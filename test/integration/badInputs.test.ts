@@ -1,0 +1,134 @@
+/**
+ * A table of bad requests: each gets its 4xx with `{error: {code, message, field?}}` naming what
+ * to fix, no stack trace, and nothing written (the whole database is fingerprinted before and
+ * after). Status codes per RFC 9110 §15.5 (400, 401, 403, 404, 409, 413).
+ */
+import { afterAll, beforeAll, expect, it } from "vitest";
+import { forEachDatabase } from "../support/databases.ts";
+import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "./harness.ts";
+
+interface Case {
+  name: string;
+  method: string;
+  path: string;
+  body?: unknown;
+  raw?: string;
+  headers?: Record<string, string>;
+  /** who calls: the admin, the landing page (its own public key), or nobody (no key) */
+  as: "admin" | "page" | "none";
+  status: number;
+  code: string;
+  field?: string;
+}
+
+const P = "/api/v1/pages/fixture";
+const UNKNOWN_UUID = "0b6a1c2e-9d7f-4e55-8a1b-3c4d5e6f7a8b";
+
+const cases: Case[] = [
+  // malformed and oversize bodies
+  { name: "malformed JSON on an admin route", method: "POST", path: "/api/v1/pages", raw: '{"key": "a",', headers: { "content-type": "application/json" }, as: "admin", status: 400, code: "MALFORMED_JSON", field: "body" },
+  { name: "malformed JSON on a public route", method: "POST", path: `${P}/picks`, raw: "{visitor: 1}", headers: { "content-type": "application/json" }, as: "page", status: 400, code: "MALFORMED_JSON", field: "body" },
+  { name: "oversize public body", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { note: "x".repeat(20_000) } }, as: "page", status: 413, code: "BODY_TOO_LARGE", field: "body" },
+  { name: "oversize admin body", method: "POST", path: "/api/v1/pages", body: { ...testPage("big"), name: "x".repeat(1_100_000) }, as: "admin", status: 413, code: "BODY_TOO_LARGE", field: "body" },
+  { name: "no JSON content type", method: "POST", path: "/api/v1/pages", raw: "key=a", headers: { "content-type": "application/x-www-form-urlencoded" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "body" },
+  // picks
+  { name: "pick: visitor of the wrong type", method: "POST", path: `${P}/picks`, body: { visitor: 42 }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor" },
+  { name: "pick: visitor missing", method: "POST", path: `${P}/picks`, body: { context: { source: "search" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor" },
+  { name: "pick: unknown field", method: "POST", path: `${P}/picks`, body: { visitor: "v", colour: "red" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "colour" },
+  { name: "pick: context value an object", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { source: { a: 1 } } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.source" },
+  { name: "pick: unknown page", method: "POST", path: "/api/v1/pages/no-such-page/picks", body: { visitor: "v" }, as: "page", status: 404, code: "UNKNOWN_PAGE" },
+  { name: "pick: invalid page key", method: "POST", path: "/api/v1/pages/Bad_Key/picks", body: { visitor: "v" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "key" },
+  { name: "pick: no X-Page-Key", method: "POST", path: `${P}/picks`, body: { visitor: "v" }, as: "none", status: 401, code: "UNAUTHORIZED" },
+  { name: "pick: wrong X-Page-Key", method: "POST", path: `${P}/picks`, body: { visitor: "v" }, headers: { "x-page-key": "pk_not-this-one" }, as: "none", status: 403, code: "FORBIDDEN" },
+  { name: "pick: admin token instead of the page key", method: "POST", path: `${P}/picks`, body: { visitor: "v" }, headers: { authorization: `Bearer ${ADMIN_TOKEN}` }, as: "none", status: 401, code: "UNAUTHORIZED" },
+  // outcomes
+  { name: "outcome: pick id not a UUID", method: "POST", path: `${P}/outcomes`, body: { pick: "abc" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "pick" },
+  { name: "outcome: unknown pick", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "e1" }, as: "page", status: 404, code: "UNKNOWN_PICK", field: "pick" },
+  { name: "outcome: value not a number", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, value: "12" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "value" },
+  { name: "outcome: empty event id", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "event" },
+  // auth on admin routes; the public key never reads reports or definitions
+  { name: "admin route without a token", method: "GET", path: "/api/v1/pages", as: "none", status: 401, code: "UNAUTHORIZED" },
+  { name: "admin route with a wrong token", method: "GET", path: "/api/v1/pages", headers: { authorization: "Bearer fw_admin_wrong" }, as: "none", status: 401, code: "UNAUTHORIZED" },
+  { name: "report with the page's public key", method: "GET", path: `${P}/report`, as: "page", status: 401, code: "UNAUTHORIZED" },
+  { name: "definition with the page's public key", method: "GET", path: P, as: "page", status: 401, code: "UNAUTHORIZED" },
+  { name: "create a page without a token", method: "POST", path: "/api/v1/pages", body: testPage("sneaky"), as: "none", status: 401, code: "UNAUTHORIZED" },
+  // page definitions
+  { name: "page key with capitals and spaces", method: "POST", path: "/api/v1/pages", body: { ...testPage("x"), key: "My Page" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "key" },
+  { name: "page without factors", method: "POST", path: "/api/v1/pages", body: { ...testPage("nofactors"), factors: [] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors" },
+  { name: "exclusion naming an unknown level", method: "POST", path: "/api/v1/pages", body: { ...testPage("badrule"), exclude: [{ photo: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL" },
+  { name: "interaction naming an unknown factor", method: "POST", path: "/api/v1/pages", body: { ...testPage("badpair"), interactions: [["title", "colour"]] }, as: "admin", status: 400, code: "UNKNOWN_FACTOR" },
+  { name: "duplicate level names", method: "POST", path: "/api/v1/pages", body: { ...testPage("dup"), factors: [{ name: "title", levels: [{ name: "a" }, { name: "a" }] }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
+  { name: "setting out of range", method: "POST", path: "/api/v1/pages", body: { ...testPage("badsetting"), settings: { baselineShare: 1.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "baselineShare" },
+  { name: "unknown setting", method: "POST", path: "/api/v1/pages", body: { ...testPage("typo"), settings: { foldEverySeconds: 5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "foldEverySeconds" },
+  { name: "segmentBy with a bad name", method: "POST", path: "/api/v1/pages", body: { ...testPage("badseg"), segmentBy: ["source|x"] }, as: "admin", status: 400, code: "INVALID_DEFINITION", field: "segmentBy.0" },
+  { name: "existing page key", method: "POST", path: "/api/v1/pages", body: testPage("fixture"), as: "admin", status: 409, code: "PAGE_EXISTS", field: "key" },
+  { name: "check a definition with one level", method: "POST", path: "/api/v1/definitions/check", body: { factors: [{ name: "title", levels: [{ name: "only" }] }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
+  // page edits
+  { name: "edit: remove an unknown factor", method: "PATCH", path: P, body: { removeFactors: ["colour"] }, as: "admin", status: 400, code: "UNKNOWN_FACTOR", field: "removeFactors.0" },
+  { name: "edit: remove an unknown level", method: "PATCH", path: P, body: { removeLevels: [{ factor: "photo", level: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL", field: "removeLevels.0.level" },
+  { name: "edit: valid value change plus an unknown level", method: "PATCH", path: P, body: { name: "Renamed", levelValues: [{ factor: "title", level: "short", value: "changed" }, { factor: "title", level: "tiny", value: "x" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL", field: "levelValues.1.level" },
+  { name: "edit: unknown status", method: "PATCH", path: P, body: { status: "stopped" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "status" },
+  { name: "edit: setting out of range", method: "PATCH", path: P, body: { settings: { explorationFloor: 2 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "explorationFloor" },
+  { name: "edit: leave a factor one level", method: "PATCH", path: P, body: { removeLevels: [{ factor: "title", level: "long" }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
+  { name: "edit: unknown page", method: "PATCH", path: "/api/v1/pages/no-such-page", body: { name: "x" }, as: "admin", status: 404, code: "UNKNOWN_PAGE" },
+  // reads
+  { name: "report of an unknown page", method: "GET", path: "/api/v1/pages/no-such-page/report", as: "admin", status: 404, code: "UNKNOWN_PAGE" },
+  { name: "export in an unknown format", method: "GET", path: `${P}/export?format=xml`, as: "admin", status: 400, code: "INVALID_REQUEST", field: "format" },
+  { name: "demo traffic on a normal page", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 10 }, as: "admin", status: 409, code: "NOT_DEMO_PAGE" },
+  { name: "demo traffic: zero visitors", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 0 }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "visitors" },
+  { name: "unknown API route", method: "GET", path: "/api/v1/nothing-here", as: "admin", status: 404, code: "NOT_FOUND" },
+];
+
+const TABLES = ["page", "factor", "level", "exclusion_rule", "segment", "pick", "assignment", "outcome", "posterior_snapshot", "allocation_record", "retired_combination", "api_key", "fold_log"];
+
+forEachDatabase("bad inputs", (open) => {
+  let h: Harness;
+  let publicKey: string;
+
+  /** Everything a rejected request could have changed. */
+  async function fingerprint(): Promise<string> {
+    const counts = await Promise.all(TABLES.map(async (t) => `${t}=${await h.count(t)}`));
+    const { rows } = await h.db.pool.query(
+      `SELECT (SELECT string_agg(concat_ws('/', key, name, status, settings::text, model_version, updated_at), ';' ORDER BY id) FROM page) AS pages,
+              (SELECT string_agg(concat_ws('/', name, value), ';' ORDER BY id) FROM level) AS levels`);
+    return JSON.stringify({ counts, ...rows[0] });
+  }
+
+  beforeAll(async () => {
+    h = await startHarness(await open());
+    const created = await h.admin("POST", "/pages", testPage("fixture"));
+    publicKey = created.body.publicKey;
+    const pick = await h.pick({ key: "fixture", publicKey }, "someone", { source: "search" });
+    expect(pick.status).toBe(200);
+  });
+  afterAll(async () => {
+    await h?.close();
+    await h?.db.close();
+  });
+
+  it.each(cases)("$name → $status $code", async (c) => {
+    const headers: Record<string, string> = { ...c.headers };
+    if (c.as === "admin") headers.authorization = `Bearer ${ADMIN_TOKEN}`;
+    if (c.as === "page") headers["x-page-key"] = publicKey;
+    const before = await fingerprint();
+    const r = await h.call(c.method, c.path, { body: c.body, raw: c.raw, headers });
+    expect(r.status).toBe(c.status);
+    expect(r.body.error.code).toBe(c.code);
+    expect(typeof r.body.error.message).toBe("string");
+    expect(r.body.error.message).not.toMatch(/\{\w+\}/); // every template placeholder filled
+    if (c.field !== undefined) expect(r.body.error.field).toBe(c.field);
+    expect(r.text).not.toMatch(/\.ts:\d+|node_modules|at \w+ \(/); // no stack trace
+    expect(await fingerprint()).toBe(before);
+  });
+
+  it("an outcome for another page's pick is unknown there", async () => {
+    const other = await h.admin("POST", "/pages", testPage("other-page"));
+    const pick = await h.pick({ key: "other-page", publicKey: other.body.publicKey }, "v-other");
+    const before = await fingerprint();
+    const r = await h.outcome({ key: "fixture", publicKey }, { pick: pick.body.pick, event: "cross" });
+    expect(r.status).toBe(404);
+    expect(r.body.error.code).toBe("UNKNOWN_PICK");
+    expect(await fingerprint()).toBe(before);
+  });
+});
+
