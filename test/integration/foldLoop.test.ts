@@ -1,0 +1,174 @@
+/**
+ * The fold loop on every database target: which picks mature (converted, or attribution window
+ * closed — the definition in DESIGN.md), conversions inside and after the window, one folder at
+ * a time, no pick folded twice across a restart, and the stored posterior equal to a replay of
+ * the engine's foldCycle over the stored picks.
+ */
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { setTimeout as sleep } from "node:timers/promises";
+import { forEachDatabase } from "../support/databases.ts";
+import { startHarness, testPage, type Harness } from "./harness.ts";
+import { FoldLoop, foldSeed } from "../../src/service/folds.ts";
+import { foldLogs, foldedRows, loadSnapshot } from "../../src/store/repositories/folds.ts";
+import { deserializeState, foldCycle, initialState, parseSettings } from "../../src/model/index.ts";
+import { designOf } from "../../src/service/definition.ts";
+import { loadPage } from "../../src/store/repositories/pages.ts";
+import type { Database } from "../../src/store/database.ts";
+
+type PageRef = { key: string; publicKey: string; id: number };
+
+async function createPage(h: Harness, key: string, settings: Record<string, unknown>): Promise<PageRef> {
+  const r = await h.admin("POST", "/pages", testPage(key, { settings }));
+  expect(r.status).toBe(201);
+  const id = (await h.db.pool.query("SELECT id FROM page WHERE key = $1", [key])).rows[0].id as number;
+  return { key, publicKey: r.body.publicKey, id };
+}
+
+const states = async (db: Database, pageId: number) =>
+  (await db.pool.query("SELECT state, count(*)::int AS n FROM pick WHERE page_id = $1 GROUP BY 1 ORDER BY 1", [pageId])).rows
+    .reduce((acc: Record<string, number>, r: { state: string; n: number }) => ({ ...acc, [r.state]: r.n }), {});
+
+forEachDatabase("fold loop", (open, target) => {
+  describe("maturing and the attribution window", () => {
+    let h: Harness;
+    beforeAll(async () => {
+      h = await startHarness(await open());
+    });
+    afterAll(async () => {
+      await h?.close();
+      await h?.db.close();
+    });
+
+    it("counts a conversion inside the window, stores but does not count one after it", async () => {
+      // a 2-second window, in real time
+      const page = await createPage(h, "window-page", { attributionWindowHours: 2 / 3600 });
+      const early = (await h.pick(page, "early", { source: "search" })).body.pick;
+      const late = (await h.pick(page, "late", { source: "search" })).body.pick;
+      await sleep(300);
+      const inside = await h.outcome(page, { pick: early, event: "e-early" });
+      expect(inside.body).toEqual({ accepted: true, duplicate: false, counted: true });
+      await sleep(2200);
+      const after = await h.outcome(page, { pick: late, event: "e-late" });
+      expect(after.status).toBe(202);
+      expect(after.body.counted).toBe(false);
+      expect(after.body.reason).toMatch(/after the attribution window closed/);
+      expect(await h.count("outcome")).toBe(2); // the late one is stored
+      const fold = await h.server.services.folds.foldPage(page.id, true);
+      expect(fold).toMatchObject({ folded: true, picks: 2 });
+      const report = (await h.admin("GET", `/pages/${page.key}/report`)).body;
+      expect(report.pooled).toMatchObject({ visitors: 2, conversions: 1, folded: 2 });
+    });
+
+    it("folds converted and window-closed picks only; open ones wait", async () => {
+      const page = await createPage(h, "mature-page", { attributionWindowHours: 1 });
+      const picks = [];
+      for (const v of ["a", "b", "c", "d"]) picks.push((await h.pick(page, v, { source: "social" })).body.pick);
+      await h.outcome(page, { pick: picks[0], event: "conv-a" });                 // converted → matures now
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE id = $1", [picks[1]]); // window closed
+      const fold = await h.server.services.folds.foldPage(page.id, true);
+      expect(fold).toMatchObject({ folded: true, picks: 2 });
+      expect(await states(h.db, page.id)).toEqual({ folded: 2, open: 2 });
+      const rows = await foldedRows(h.db.pool, page.id);
+      expect(rows.reduce((s, r) => s + r.k, 0)).toBe(1);
+      // the same picks are never folded again
+      const again = await h.server.services.folds.foldPage(page.id, true);
+      expect(again).toMatchObject({ folded: true, picks: 0 });
+    });
+
+    it("lets one folder fold a due page at a time", async () => {
+      const page = await createPage(h, "one-folder", { foldIntervalSeconds: 1 });
+      for (const v of ["p", "q", "r"]) await h.pick(page, v, { source: "search" });
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
+      await sleep(1100);
+      // a second server process on the same database: its own pool on PostgreSQL
+      const other = target.kind === "postgres" ? await reopen(h.db) : null;
+      const loops = [h.server.services.folds, new FoldLoop((other ?? h.db).pool, false)];
+      const results = await Promise.all(loops.map((l) => l.foldPage(page.id)));
+      await other?.close();
+      expect(results.filter((r) => r.folded)).toHaveLength(1);
+      expect(results.find((r) => r.folded)).toMatchObject({ picks: 3 });
+      expect((await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [page.id])).rows[0].model_version).toBe(2);
+    });
+  });
+
+  it("resumes after a restart without folding any pick twice, and the stored posterior equals a replay of the stored picks", async () => {
+    const storage = await target.storage();
+    try {
+      let db = await storage.open();
+      let h = await startHarness(db, { foldLoop: true, foldTickMs: 100 });
+      const page = await createPage(h, "restart-page", { foldIntervalSeconds: 0.3, attributionWindowHours: 0.5 / 3600 });
+      const sources = ["search", "social", "newsletter"];
+      const serve = async (from: number, to: number) => {
+        for (let i = from; i < to; i++) {
+          const pick = (await h.pick(page, `visitor-${i}`, { source: sources[i % 3] })).body;
+          // invented traffic for the mechanics only: every third visitor converts
+          if (i % 3 === 0) await h.outcome(page, { pick: pick.pick, event: `conv-${i}` });
+        }
+      };
+      await serve(0, 60);
+      await waitUntil(async () => (await states(db, page.id)).open === undefined);
+      await h.close();
+      await db.close();
+
+      db = await storage.open();
+      h = await startHarness(db, { foldLoop: true, foldTickMs: 100 });
+      await serve(60, 90);
+      await waitUntil(async () => (await states(db, page.id)).open === undefined);
+      await h.close(); // stops the loop: the state below is final
+
+      const folded = await foldedRows(db.pool, page.id);
+      const logs = await foldLogs(db.pool, page.id);
+      const pickTotal = (await db.pool.query("SELECT count(*)::int AS n, count(converted_at)::int AS k FROM pick WHERE page_id = $1", [page.id])).rows[0];
+      expect(pickTotal.n).toBe(90);
+      expect(folded.reduce((s, r) => s + r.n, 0)).toBe(90);
+      // every fold logged the picks it consumed; their sum is each pick exactly once
+      expect(logs.reduce((s, l) => s + l.picks, 0)).toBe(90);
+      expect(new Set(logs.map((l) => l.version)).size).toBe(logs.length);
+
+      const stored = (await loadPage(db.pool, page.key))!;
+      const snapshot = (await loadSnapshot(db.pool, page.id, stored.modelVersion))!;
+      const state = deserializeState(snapshot.state);
+      const siteVisitors = [...state.sites.values()].reduce((s, site) => s + site.visitors, 0);
+      const siteConversions = [...state.sites.values()].reduce((s, site) => s + site.conversions, 0);
+      expect(siteVisitors).toBe(90);
+      expect(siteConversions).toBe(pickTotal.k);
+
+      // Replay: the same engine calls, in version order, over the rows rebuilt from the stored picks.
+      const design = designOf(stored);
+      const settings = parseSettings(stored.settings);
+      let replay = initialState(design, settings);
+      let retired: ReturnType<typeof foldCycle>["retired"] = [];
+      for (const log of logs) {
+        const rows = folded.filter((r) => r.version === log.version).map(({ segment, combination, n, k }) => ({ segment, combination, n, k }));
+        const out = foldCycle({ design, settings, state: replay, rows, now: log.at.getTime(), segments: sources.map((s) => `source=${s}`), retired, seed: foldSeed(page.id, log.version) });
+        replay = out.state;
+        retired = out.retired;
+      }
+      expect([...replay.sites.keys()].sort()).toEqual([...state.sites.keys()].sort());
+      for (const [segment, site] of state.sites) {
+        const other = replay.sites.get(segment)!;
+        expect(other.visitors).toBe(site.visitors);
+        expect(other.conversions).toBe(site.conversions);
+        site.eta.forEach((v, i) => expect(other.eta[i]).toBeCloseTo(v, 9));
+        site.lambda.forEach((v, i) => expect(other.lambda[i]).toBeCloseTo(v, 9));
+      }
+      await db.close();
+    } finally {
+      await storage.remove();
+    }
+  });
+});
+
+async function reopen(db: Database): Promise<Database> {
+  const { openDatabase } = await import("../../src/store/database.ts");
+  return openDatabase({ url: db.url, migrate: false });
+}
+
+async function waitUntil(check: () => Promise<boolean>, timeoutMs = 20_000): Promise<void> {
+  const end = Date.now() + timeoutMs;
+  while (Date.now() < end) {
+    if (await check()) return;
+    await sleep(100);
+  }
+  throw new Error("condition not reached in time");
+}
