@@ -33,7 +33,7 @@ export interface EmbeddedServer {
 
 const LOCK_FILE = "facetwise.lock";
 /** PGlite keeps its cluster in a subfolder so the lock file and future files sit beside it. */
-const CLUSTER_DIR = "pgdata";
+export const CLUSTER_DIR = "pgdata";
 /**
  * The socket server refuses connections above this. The pool uses one; the spare slots absorb a
  * reconnect that arrives before the server has noticed the previous socket closing.
