@@ -18,7 +18,7 @@ import { quantileInPlace } from "./quantile.ts";
 import type { Rng } from "./rng.ts";
 
 /** Random starts per sample in addition to the posterior-mean optimum. */
-export const CLIMB_RESTARTS = 3;
+export const CLIMB_RESTARTS = 8;
 
 /** The allowed combinations of an enumerable design with their active features (cached per design). */
 export interface ComboTable {

@@ -119,15 +119,17 @@ export function choleskyInverse(l: Float64Array, d: number): Float64Array {
   return inv;
 }
 
-/** Diagonal of A⁻¹ from A's Cholesky factor: ‖L⁻¹ e_i‖² summed by columns of L⁻¹. */
+/** Diagonal of A⁻¹ from A's Cholesky factor: A⁻¹ = L⁻ᵀL⁻¹, so (A⁻¹)_jj = ‖L⁻¹ e_j‖². */
 export function inverseDiagonal(l: Float64Array, d: number): Float64Array {
   const out = new Float64Array(d);
   const e = new Float64Array(d);
   for (let j = 0; j < d; j++) {
     e.fill(0);
     e[j] = 1;
-    forwardSolve(l, d, e); // e = L⁻¹ e_j, the j-th column of L⁻¹
-    for (let i = 0; i < d; i++) out[i] += e[i] * e[i]; // (A⁻¹)_ii = Σ_j (L⁻¹)_ij²
+    forwardSolve(l, d, e);
+    let s = 0;
+    for (let i = j; i < d; i++) s += e[i] * e[i]; // L⁻¹ is lower triangular: entries above j are 0
+    out[j] = s;
   }
   return out;
 }

@@ -7,7 +7,7 @@ import { createRequire } from "node:module";
 import { buildDesign, type Design } from "../../src/model/index.ts";
 
 interface JStatEngineParts {
-  normal: { cdf(x: number, mean: number, sd: number): number };
+  normal: { cdf(x: number, mean: number, sd: number): number; inv(p: number, mean: number, sd: number): number };
   beta: { pdf(x: number, a: number, b: number): number; cdf(x: number, a: number, b: number): number; inv(p: number, a: number, b: number): number };
   chisquare: { inv(p: number, dof: number): number };
 }

@@ -1,0 +1,56 @@
+import { CholeskyDecomposition, inverse, Matrix } from "ml-matrix";
+import { describe, expect, it } from "vitest";
+import { createRng } from "../../src/model/index.ts";
+import { cholesky, choleskyInverse, choleskySolve, inverseDiagonal } from "../../src/model/linalg.ts";
+import { quantileInPlace } from "../../src/model/quantile.ts";
+
+/** A random symmetric positive-definite matrix A = BᵀB + I. */
+function spd(d: number, seed: number): Float64Array {
+  const rng = createRng(seed);
+  const b = Array.from({ length: d }, () => Array.from({ length: d }, () => rng.normal()));
+  const a = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) {
+    let s = i === j ? 1 : 0;
+    for (let k = 0; k < d; k++) s += b[k][i] * b[k][j];
+    a[i * d + j] = s;
+  }
+  return a;
+}
+
+describe("dense SPD linear algebra agrees with ml-matrix (reference library)", () => {
+  it("Cholesky factor, solve, inverse and inverse diagonal", () => {
+    for (const d of [1, 5, 40]) {
+      const a = spd(d, d);
+      const rows = Array.from({ length: d }, (_, i) => Array.from(a.subarray(i * d, i * d + d)));
+      const ref = new CholeskyDecomposition(new Matrix(rows)).lowerTriangularMatrix;
+      const l = cholesky(a, d)!;
+      for (let i = 0; i < d; i++) for (let j = 0; j <= i; j++) expect(l[i * d + j]).toBeCloseTo(ref.get(i, j), 9);
+      const rhs = Array.from({ length: d }, (_, i) => i - d / 2);
+      const x = choleskySolve(l, d, rhs);
+      const refX = new CholeskyDecomposition(new Matrix(rows)).solve(Matrix.columnVector(rhs));
+      for (let i = 0; i < d; i++) expect(x[i]).toBeCloseTo(refX.get(i, 0), 8);
+      const inv = choleskyInverse(l, d);
+      const refInv = inverse(new Matrix(rows));
+      const diag = inverseDiagonal(l, d);
+      for (let i = 0; i < d; i++) {
+        expect(diag[i]).toBeCloseTo(refInv.get(i, i), 10);
+        for (let j = 0; j < d; j++) expect(inv[i * d + j]).toBeCloseTo(refInv.get(i, j), 10);
+      }
+    }
+  });
+
+  it("returns null for a matrix that is not positive definite", () => {
+    expect(cholesky(Float64Array.from([1, 2, 2, 1]), 2)).toBeNull();
+  });
+});
+
+describe("sample quantiles", () => {
+  it("follow Hyndman & Fan definition 7 (linear interpolation, as R's default quantile type)", () => {
+    // For 1..10: the 0.25 quantile is 1 + 0.25·9 = 3.25, the 0.975 quantile is 1 + 0.975·9 = 9.775.
+    const xs = () => Float64Array.from([7, 3, 10, 1, 5, 9, 2, 8, 6, 4]);
+    expect(quantileInPlace(xs(), 0.25)).toBeCloseTo(3.25, 12);
+    expect(quantileInPlace(xs(), 0.975)).toBeCloseTo(9.775, 12);
+    expect(quantileInPlace(xs(), 0)).toBe(1);
+    expect(quantileInPlace(xs(), 1)).toBe(10);
+  });
+});

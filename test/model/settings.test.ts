@@ -1,0 +1,40 @@
+import { describe, expect, it } from "vitest";
+import { FacetwiseError } from "../../src/errors.ts";
+import { defaultSettings, parseSettings } from "../../src/model/index.ts";
+
+describe("page settings", () => {
+  it("fills every default from the contract's settings table", () => {
+    // Values from the settings table of the project contract (DESIGN/contract, not an outside source).
+    expect(parseSettings({})).toEqual({
+      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 900, explorationFloor: 0.02,
+      baselineShare: 0.05, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
+      retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.25, priorInterceptMean: -3, priorInterceptScale: 2,
+      priorMainScale: 0.5, priorInteractionScale: 0.25, samples: 1000, maxSegments: 200,
+    });
+    expect(parseSettings(undefined)).toEqual(defaultSettings);
+    expect(parseSettings({ halfLifeDays: 3 }).halfLifeDays).toBe(3);
+  });
+
+  it("rejects bad values and unknown names with INVALID_SETTING naming the field", () => {
+    const cases: [unknown, string][] = [
+      [{ explorationFloor: 1.5 }, "explorationFloor"],
+      [{ baselineShare: -0.1 }, "baselineShare"],
+      [{ samples: 10.5 }, "samples"],
+      [{ retireAfterFolds: 0 }, "retireAfterFolds"],
+      [{ halfLifeDays: 0 }, "halfLifeDays"],
+      [{ priorMainScale: "big" }, "priorMainScale"],
+      [{ halflifeDays: 3 }, "halflifeDays"],
+    ];
+    for (const [input, field] of cases) {
+      try {
+        parseSettings(input);
+        throw new Error("expected INVALID_SETTING");
+      } catch (error) {
+        expect(error).toBeInstanceOf(FacetwiseError);
+        expect((error as FacetwiseError).code).toBe("INVALID_SETTING");
+        expect((error as FacetwiseError).field).toBe(field);
+        expect((error as FacetwiseError).message).toContain(field);
+      }
+    }
+  });
+});
