@@ -10,7 +10,7 @@ export function parseFlags<T>(parse: () => T): T {
   try {
     return parse();
   } catch (error) {
-    const text = (error as Error).message.split("\n")[0]!;
+    const text = (error as Error).message.split("\n")[0]!.replace(/\. To specify a positional argument.*$/, "");
     const flag = /'(-[^' ]+)/.exec(text)?.[1] ?? /"(-[^" ]+)"/.exec(text)?.[1] ?? "";
     throw fail("INVALID_OPTION", { option: flag || "(arguments)", reason: text.replace(/^[^:]*:\s*/, "") });
   }

@@ -5,11 +5,14 @@
  *
  * This creates a delayed-feedback asymmetry: at any moment the matured data holds the recent
  * conversions but not yet the recent non-conversions, so combinations served a lot lately look
- * better than they are until their windows close. `holdConversions` switches to the symmetric
- * rule (every pick, converting or not, matures when its window closes) so the harness can measure
- * what the asymmetry costs (`facetwise simulate --maturity window`).
+ * better than they are until their windows close. Two other rules let the harness measure what
+ * the asymmetry costs (`facetwise simulate --maturity …`):
+ *   "window"    — every pick, converting or not, matures when its window closes (unbiased, but
+ *                 nothing is learnt during the first window);
+ *   "immediate" — every pick matures at once (in the simulator conversions are instant, so this
+ *                 is the unbiased ceiling that delay-aware counting could approach).
  */
-export type MaturityRule = "server" | "window";
+export type MaturityRule = "server" | "window" | "immediate";
 
 export type OnMature = (segment: number, combination: number, converted: boolean) => void;
 
@@ -29,7 +32,7 @@ export class MaturityQueue {
 
   /** Records visitor `visitor`'s pick. */
   add(visitor: number, segment: number, combination: number, converted: boolean): void {
-    if (converted && this.rule === "server") {
+    if (this.rule === "immediate" || (converted && this.rule === "server")) {
       this.onMature(segment, combination, true);
       return;
     }
