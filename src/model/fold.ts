@@ -43,24 +43,34 @@ export interface GroupedRows {
 /** Validates rows, routes segments (overflow beyond maxSegments) and merges rows per combination. */
 export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Site>, maxSegments: number): GroupedRows {
   const perSegment = new Map<string, Map<string, [number, number]>>();
-  const visitorsBySegment = new Map<string, number>();
   const skipped = { rows: 0, visitors: 0 };
+  // Rows usually arrive grouped by segment: remember the last segment's map.
+  let lastSegment: string | undefined;
+  let combos: Map<string, [number, number]> | undefined;
   for (const row of rows) {
     const segment = row?.segment;
     if (typeof segment !== "string") throw fail("INVALID_FOLD_ROW", { segment: String(segment), reason: "segment must be a string" }, "segment");
     const { n, k } = row;
-    if (typeof n !== "number" || !Number.isFinite(n) || n < 0 || typeof k !== "number" || !Number.isFinite(k) || k < 0 || k > n) {
+    if (typeof n !== "number" || typeof k !== "number" || !(n >= 0 && k >= 0 && k <= n && n < Infinity)) {
       throw fail("INVALID_FOLD_ROW", { segment, reason: `need 0 ≤ k ≤ n with finite counts, got n=${n}, k=${k}` }, "n");
     }
     if (n === 0) continue;
-    let combos = perSegment.get(segment);
-    if (!combos) perSegment.set(segment, (combos = new Map()));
+    if (segment !== lastSegment || combos === undefined) {
+      combos = perSegment.get(segment);
+      if (!combos) perSegment.set(segment, (combos = new Map()));
+      lastSegment = segment;
+    }
     const entry = combos.get(row.combination);
     if (entry) {
       entry[0] += n;
       entry[1] += k;
     } else combos.set(row.combination, [n, k]);
-    visitorsBySegment.set(segment, (visitorsBySegment.get(segment) ?? 0) + n);
+  }
+  const visitorsBySegment = new Map<string, number>();
+  for (const [segment, entries] of perSegment) {
+    let total = 0;
+    for (const [n] of entries.values()) total += n;
+    visitorsBySegment.set(segment, total);
   }
 
   // Route segments: known sites keep theirs; new ones are admitted by volume until maxSegments.

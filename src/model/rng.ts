@@ -62,8 +62,9 @@ export function createRng(seed: number): Rng {
     }
     let u: number, v: number, s: number;
     do {
-      u = 2 * next() - 1;
-      v = 2 * next() - 1;
+      // 32-bit uniforms on [−1, 1) are ample here and twice as cheap as 53-bit ones.
+      u = (u32() | 0) / 2147483648;
+      v = (u32() | 0) / 2147483648;
       s = u * u + v * v;
     } while (s >= 1 || s === 0);
     const f = Math.sqrt((-2 * Math.log(s)) / s);
