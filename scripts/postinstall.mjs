@@ -7,4 +7,5 @@ import { existsSync } from "node:fs";
 const env = { ...process.env, DATABASE_URL: process.env.DATABASE_URL || "postgresql://placeholder@127.0.0.1:5432/placeholder" };
 const run = (cmd, args) => execFileSync(cmd, args, { stdio: "inherit", env });
 run("npx", ["--no-install", "prisma", "generate"]);
-if (existsSync("web/tsconfig.json")) run("npx", ["--no-install", "tsc", "-p", "web/tsconfig.json"]);
+// The console: tsc, then the static shell (HTML, CSS) copied into web/dist.
+if (existsSync("web/build.mjs")) run("node", ["web/build.mjs"]);
