@@ -95,23 +95,36 @@ async function checkReachable(pool: pg.Pool, url: string): Promise<void> {
   }
 }
 
-/** SQLSTATE classes and driver codes that mean "cannot talk to the database", not "bad query". */
+/** Node socket codes and SQLSTATE classes (08 connection, 28 auth, 3D no database, 53 resources, 57P shutdown). */
 const CONNECTION_CODES = new Set(["ECONNREFUSED", "ECONNRESET", "ENOTFOUND", "EAI_AGAIN", "ETIMEDOUT", "EHOSTUNREACH", "EPIPE"]);
 const CONNECTION_SQLSTATE_CLASSES = ["08", "28", "3D", "53", "57P"];
+/** Prisma's codes for the same (P1000 auth … P1017 closed; P2024 no pool connection in time). */
+const PRISMA_CONNECTION_CODES = new Set(["P1000", "P1001", "P1002", "P1003", "P1008", "P1017", "P2024"]);
+/** What @prisma/adapter-pg reports in meta.driverAdapterError.cause.kind. */
+const ADAPTER_CONNECTION_KINDS = new Set([
+  "DatabaseNotReachable", "ConnectionClosed", "SocketTimeout", "TooManyConnections",
+  "DatabaseDoesNotExist", "DatabaseAccessDenied", "AuthenticationFailed", "TlsConnectionError",
+]);
 
-/** True when `error` (from pg or from Prisma over the pg adapter) means the database cannot be reached. */
+/**
+ * True when `error` means the database cannot be reached (not "this query is wrong"): from pg,
+ * or from Prisma over the pg adapter. The HTTP layer answers these with 503 and Retry-After.
+ */
 export function isConnectionError(error: unknown): boolean {
-  for (let e: unknown = error, depth = 0; e && typeof e === "object" && depth < 5; depth++) {
-    const { code, message } = e as { code?: unknown; message?: unknown };
-    if (typeof code === "string" && (CONNECTION_CODES.has(code) || CONNECTION_SQLSTATE_CLASSES.some((c) => code.startsWith(c)))) {
-      return true;
+  const seen = new Set<unknown>();
+  const visit = (e: unknown): boolean => {
+    if (!e || typeof e !== "object" || seen.has(e)) return false;
+    seen.add(e);
+    const { code, kind, message, cause, meta } = e as { code?: unknown; kind?: unknown; message?: unknown; cause?: unknown; meta?: { driverAdapterError?: unknown } };
+    if (typeof code === "string") {
+      if (CONNECTION_CODES.has(code) || PRISMA_CONNECTION_CODES.has(code)) return true;
+      if (/^[0-9A-Z]{5}$/.test(code) && CONNECTION_SQLSTATE_CLASSES.some((c) => code.startsWith(c))) return true;
     }
-    if (typeof message === "string" && /Connection terminated|timeout exceeded when trying to connect|Client has encountered a connection error/i.test(message)) {
-      return true;
-    }
-    e = (e as { cause?: unknown }).cause;
-  }
-  return false;
+    if (typeof kind === "string" && ADAPTER_CONNECTION_KINDS.has(kind)) return true;
+    if (typeof message === "string" && /Connection terminated|timeout exceeded when trying to connect/i.test(message)) return true;
+    return visit(cause) || visit(meta?.driverAdapterError);
+  };
+  return visit(error);
 }
 
 /** DATABASE_UNAVAILABLE naming the target (password hidden) and the driver's reason. */

@@ -40,6 +40,8 @@ import { CLUSTER_DIR } from "../../src/store/embedded.ts";
 export type StorageOptions = Pick<OpenOptions, "migrate" | "migrationsDir">;
 
 export interface TestStorage {
+  /** the data folder (embedded) or the database url (postgres) */
+  location: string;
   /** opens the storage (migrating it unless `migrate: false`); close the result before opening again */
   open(options?: StorageOptions): Promise<Database>;
   /** deletes the storage; every Database opened on it must be closed first */
@@ -90,9 +92,16 @@ function target(kind: Database["kind"], storage: () => Promise<TestStorage>): Da
 }
 
 async function embeddedStorage(): Promise<TestStorage> {
+  const cluster = await templateCluster();
   const dataDir = mkdtempSync(join(tmpdir(), "facetwise-test-"));
-  cpSync(await templateCluster(), join(dataDir, CLUSTER_DIR), { recursive: true });
+  try {
+    cpSync(cluster, join(dataDir, CLUSTER_DIR), { recursive: true });
+  } catch (error) {
+    rmSync(dataDir, { recursive: true, force: true });
+    throw error;
+  }
   return {
+    location: dataDir,
     open: (options) => openDatabase({ ...options, dataDir }),
     remove: async () => rmSync(dataDir, { recursive: true, force: true }),
   };
@@ -133,6 +142,7 @@ async function postgresStorage(serverUrl: string): Promise<TestStorage> {
   const url = new URL(serverUrl);
   url.pathname = `/${name}`;
   return {
+    location: url.toString(),
     open: (options) => openDatabase({ ...options, url: url.toString() }),
     remove: () => admin(serverUrl, `DROP DATABASE IF EXISTS ${name} WITH (FORCE)`),
   };
