@@ -33,7 +33,7 @@ export class MaturityQueue {
   /** Records visitor `visitor`'s pick. */
   add(visitor: number, segment: number, combination: number, converted: boolean): void {
     if (this.rule === "immediate" || (converted && this.rule === "server")) {
-      this.onMature(segment, combination, true);
+      this.onMature(segment, combination, converted);
       return;
     }
     if (this.size === this.visitor.length) this.grow();

@@ -26,6 +26,10 @@ describe("MaturityQueue", () => {
     expect(trace("window")).toEqual({ early: [], at9: [], at10: ["0/1/0"], at16: ["1/2/1", "0/0/0"] });
   });
 
+  it("immediate rule: every pick matures at once, with its own outcome", () => {
+    expect(trace("immediate")).toEqual({ early: ["0/1/0", "1/2/1"], at9: ["0/0/0"], at10: [], at16: [] });
+  });
+
   it("keeps order when it grows past its first capacity", () => {
     const seen: number[] = [];
     const q = new MaturityQueue(5000, "server", (_s, c) => seen.push(c));
