@@ -23,7 +23,7 @@ export class OutcomeService {
       checkPublicKey(page.stored, publicKey);
       const result = await this.batcher.submit((client) => recordOutcome(client, {
         pageId: page.stored.id, pick: request.pick, event: request.event ?? randomUUID(), value: request.value ?? null,
-      }));
+      }), true);
       switch (result.kind) {
         case "unknown-pick":
           throw fail("UNKNOWN_PICK", { pick: request.pick, page: pageKey }, "pick");

@@ -26,6 +26,7 @@ export interface PickResponse {
 
 export class PickService {
   private readonly rng: Rng = createRng(randomInt(2 ** 31));
+  private readonly creating = new Map<string, Promise<number>>();
 
   constructor(private readonly pool: Pool, private readonly serving: ServingCache, private readonly batcher: WriteBatcher) {}
 
@@ -45,7 +46,7 @@ export class PickService {
         modelVersion: page.version, assignmentSeconds: page.settings.assignmentHours * 3600,
         windowSeconds: page.settings.attributionWindowHours * 3600,
         state: page.stored.status === "paused" ? "ignored" : "open", replaces: live?.pick ?? null,
-      }));
+      }), true);
       return this.respond(page, claimed.won ? { ...claimed.pick, segment: served } : claimed.pick, !claimed.won);
     } catch (error) {
       throw asServiceError(error);
@@ -68,7 +69,14 @@ export class PickService {
     const known = page.segmentIds.get(key);
     if (known !== undefined) return known;
     if (page.segmentIds.size >= page.settings.maxSegments) return null;
-    const id = await ensureSegment(this.pool, page.stored.id, key, context);
+    // concurrent first visitors of a new segment share one insert
+    const slot = `${page.stored.id}\u0000${key}`;
+    let creating = this.creating.get(slot);
+    if (!creating) {
+      creating = ensureSegment(this.pool, page.stored.id, key, context).finally(() => this.creating.delete(slot));
+      this.creating.set(slot, creating);
+    }
+    const id = await creating;
     page.segmentIds.set(key, id);
     return id;
   }

@@ -7,11 +7,13 @@
 import type { Pool, PoolClient } from "pg";
 import { fail, FacetwiseError } from "../errors.ts";
 import { asServiceError } from "./errors.ts";
+import { checkout, release } from "../store/repositories/sql.ts";
 
 type Work<T> = (client: PoolClient) => Promise<T>;
 
 interface Item {
   work: Work<unknown>;
+  single: boolean;
   resolve(value: unknown): void;
   reject(error: unknown): void;
 }
@@ -30,11 +32,13 @@ export class WriteBatcher {
    * Queues `work` for the next transaction; resolves with its result once committed. `work` must
    * use only the client it is given, and must throw only FacetwiseErrors before writing anything
    * (those fail that item alone; any other error retries the batch's items one by one).
+   * `single`: the work is one SQL statement, atomic on its own, so when it is alone in a batch it
+   * runs without BEGIN/COMMIT round trips (the statement's own commit makes it durable).
    */
-  submit<T>(work: Work<T>): Promise<T> {
+  submit<T>(work: Work<T>, single = false): Promise<T> {
     if (this.closed) return Promise.reject(fail("DATABASE_UNAVAILABLE", { reason: "the server is shutting down" }));
     return new Promise<T>((resolve, reject) => {
-      this.queue.push({ work, resolve: resolve as (v: unknown) => void, reject });
+      this.queue.push({ work, single, resolve: resolve as (v: unknown) => void, reject });
       if (!this.running) this.running = this.drain();
     });
   }
@@ -58,8 +62,9 @@ export class WriteBatcher {
     let client: PoolClient | undefined;
     let broken = false;
     try {
-      client = await this.pool.connect();
-      await client.query("BEGIN");
+      client = await checkout(this.pool);
+      const alone = batch.length === 1 && batch[0].single;
+      if (!alone) await client.query("BEGIN");
       for (const item of batch) {
         try {
           outcomes.push({ ok: true, value: await item.work(client) });
@@ -68,14 +73,16 @@ export class WriteBatcher {
           outcomes.push({ ok: false, value: error });
         }
       }
-      await client.query("COMMIT");
+      if (!alone) await client.query("COMMIT");
       this.stats.batches += 1;
       this.stats.writes += batch.length;
       this.stats.largest = Math.max(this.stats.largest, batch.length);
     } catch (error) {
-      if (client) await client.query("ROLLBACK").catch(() => (broken = true));
-      client?.release(broken || undefined);
-      client = undefined;
+      if (client) {
+        await client.query("ROLLBACK").catch(() => (broken = true));
+        release(client, broken);
+        client = undefined;
+      }
       const mapped = asServiceError(error);
       if (retryAlone && batch.length > 1 && mapped.code !== "DATABASE_UNAVAILABLE") {
         // One bad write must not sink the others: replay each in its own transaction.
@@ -86,7 +93,7 @@ export class WriteBatcher {
       for (const item of batch) item.reject(mapped);
       return;
     } finally {
-      client?.release();
+      if (client) release(client, false);
     }
     batch.forEach((item, i) => (outcomes[i].ok ? item.resolve(outcomes[i].value) : item.reject(outcomes[i].value)));
   }

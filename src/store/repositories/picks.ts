@@ -36,29 +36,35 @@ export interface NewPick {
 }
 
 /**
- * The sticky rule: claims the (page, visitor) assignment only if there is none or it expired, and
- * only then stores the pick; otherwise returns the pick that holds the assignment. Two concurrent
- * first visits of one visitor therefore get one and the same pick.
+ * The sticky rule, in one statement: claims the (page, visitor) assignment only if there is none
+ * or it expired, and only then stores the pick; otherwise returns the pick that holds the
+ * assignment. Two concurrent first visits of one visitor therefore get one and the same pick.
  */
 export async function claimAssignment(q: Queryable, p: NewPick): Promise<{ won: boolean; pick: ServedPick }> {
-  const claim = await q.query(
-    `INSERT INTO assignment (page_id, visitor, pick_id, expires_at) VALUES ($1, $2, $3, now() + make_interval(secs => $4))
-     ON CONFLICT (page_id, visitor) DO UPDATE SET pick_id = EXCLUDED.pick_id, expires_at = EXCLUDED.expires_at
-     WHERE assignment.expires_at <= now() OR assignment.pick_id = $5::uuid
-     RETURNING pick_id`,
-    [p.pageId, p.visitor, p.id, p.assignmentSeconds, p.replaces]);
-  if (claim.rowCount === 1) {
-    await q.query(
-      `INSERT INTO pick (id, page_id, visitor, segment_id, combination, propensity, model_version, created_at, expires_at, window_ends_at, state)
-       VALUES ($1, $2, $3, $4, $5, $6, $7, now(), now() + make_interval(secs => $8), now() + make_interval(secs => $9), $10)`,
-      [p.id, p.pageId, p.visitor, p.segmentId, p.combination, p.propensity, p.modelVersion, p.assignmentSeconds, p.windowSeconds, p.state]);
-    return { won: true, pick: { pick: p.id, combination: p.combination, propensity: p.propensity, segment: "" } };
-  }
-  const { rows } = await q.query<ServedRow>(
+  const { rows } = await q.query<ServedRow & { won: boolean }>(
+    `WITH claim AS (
+       INSERT INTO assignment (page_id, visitor, pick_id, expires_at) VALUES ($1, $2, $3, now() + make_interval(secs => $4))
+       ON CONFLICT (page_id, visitor) DO UPDATE SET pick_id = EXCLUDED.pick_id, expires_at = EXCLUDED.expires_at
+       WHERE assignment.expires_at <= now() OR assignment.pick_id = $5::uuid
+       RETURNING pick_id),
+     stored AS (
+       INSERT INTO pick (id, page_id, visitor, segment_id, combination, propensity, model_version, created_at, expires_at, window_ends_at, state)
+       SELECT pick_id, $1, $2, $6, $7, $8, $9, now(), now() + make_interval(secs => $4), now() + make_interval(secs => $10), $11 FROM claim
+       RETURNING id, combination, propensity)
+     SELECT true AS won, id, combination, propensity, NULL AS segment FROM stored
+     UNION ALL
+     SELECT false, p.id, p.combination, p.propensity, s.key
+     FROM assignment a JOIN pick p ON p.id = a.pick_id LEFT JOIN segment s ON s.id = p.segment_id
+     WHERE a.page_id = $1 AND a.visitor = $2 AND NOT EXISTS (SELECT 1 FROM claim)`,
+    [p.pageId, p.visitor, p.id, p.assignmentSeconds, p.replaces, p.segmentId, p.combination, p.propensity, p.modelVersion, p.windowSeconds, p.state]);
+  if (rows[0]?.won) return { won: true, pick: { pick: p.id, combination: p.combination, propensity: p.propensity, segment: "" } };
+  if (rows[0]) return { won: false, pick: served(rows[0]) };
+  // The winner committed after this statement's snapshot was taken: read it with a fresh one.
+  const live = await q.query<ServedRow>(
     `SELECT p.id, p.combination, p.propensity, s.key AS segment
      FROM assignment a JOIN pick p ON p.id = a.pick_id LEFT JOIN segment s ON s.id = p.segment_id
      WHERE a.page_id = $1 AND a.visitor = $2`, [p.pageId, p.visitor]);
-  return { won: false, pick: served(rows[0]) };
+  return { won: false, pick: served(live.rows[0]) };
 }
 
 /** Open picks whose combination the page no longer serves are set aside (never folded). */

@@ -12,7 +12,7 @@ export interface Queryable {
 
 /** Runs `work` in one transaction on one pooled connection; rolls back on any error. */
 export async function inTransaction<T>(pool: Pool, work: (client: PoolClient) => Promise<T>): Promise<T> {
-  const client = await pool.connect();
+  const client = await checkout(pool);
   let broken = false;
   try {
     await client.query("BEGIN");
@@ -25,6 +25,25 @@ export async function inTransaction<T>(pool: Pool, work: (client: PoolClient) =>
     });
     throw error;
   } finally {
-    client.release(broken ? true : undefined);
+    release(client, broken);
   }
+}
+
+/**
+ * A pooled connection for a transaction. A connection that dies while checked out emits "error"
+ * besides failing its query; without a listener that event would crash the process.
+ */
+export async function checkout(pool: Pool): Promise<PoolClient> {
+  const client = await pool.connect();
+  client.on("error", ignore);
+  return client;
+}
+
+export function release(client: PoolClient, broken: boolean): void {
+  client.off("error", ignore);
+  client.release(broken || undefined);
+}
+
+function ignore(): void {
+  // the failing query reports the error to its caller
 }
