@@ -14,7 +14,8 @@ import { inTransaction } from "../store/repositories/sql.ts";
 import { loadPageById } from "../store/repositories/pages.ts";
 import {
   databaseNow, dueForFold, insertAllocations, insertFoldLog, insertSnapshot, loadRetired, loadSnapshot, lockedPageRow,
-  matureAndAggregate, pruneSnapshots, replaceRetired, segmentKeys, setModelVersion, tryFoldLock, type RetiredRow,
+  matureAndAggregate, pruneSnapshots, replaceRetired, segmentKeys, setModelVersion, thinAllocationHistory, touchFold, tryFoldLock,
+  type RetiredRow,
 } from "../store/repositories/folds.ts";
 import { designOf, servable, settingsOf } from "./definition.ts";
 import { asServiceError } from "./errors.ts";
@@ -26,7 +27,7 @@ export const MODEL_CHANNEL = "facetwise_model";
 
 export type FoldResult =
   | { folded: true; page: string; version: number; picks: number; dropped: number; millis: number }
-  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" };
+  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" | "nothing-new" };
 
 /** Deterministic per (page, version), so a fold can be replayed exactly. */
 export function foldSeed(pageId: number, version: number): number {
@@ -79,6 +80,11 @@ export async function foldInTransaction(client: PoolClient, pageId: number, forc
   // Picks of combinations a page edit removed are marked folded but carry nothing into the model.
   const rows = matured.filter((r) => servable(design, r.combination));
   const dropped = matured.reduce((s, r) => s + r.n, 0) - rows.reduce((s, r) => s + r.n, 0);
+  if (!force && matured.length === 0 && settings.halfLifeDays === null) {
+    // Nothing new and no forgetting: the posterior would not move; only re-sample later.
+    await touchFold(client, pageId, now);
+    return { folded: false, page: row.key, reason: "nothing-new" };
+  }
   const segments = await segmentKeys(client, pageId, settings.maxSegments);
   const retired = (await loadRetired(client, pageId)).map(retiredToEntry);
   const result = foldCycle({
@@ -93,6 +99,7 @@ export async function foldInTransaction(client: PoolClient, pageId: number, forc
   const millis = performance.now() - started;
   await insertFoldLog(client, pageId, version, picks, millis, now);
   await pruneSnapshots(client, pageId, version, SNAPSHOTS_KEPT);
+  await thinAllocationHistory(client, pageId, version);
   if (notify) await client.query("SELECT pg_notify($1, $2)", [MODEL_CHANNEL, `${row.key}:${version}`]);
   return { folded: true, page: row.key, version, picks, dropped, millis };
 }

@@ -90,6 +90,22 @@ export async function pruneSnapshots(q: Queryable, pageId: number, version: numb
   await q.query("DELETE FROM posterior_snapshot WHERE page_id = $1 AND version <= $2", [pageId, version - keep]);
 }
 
+/**
+ * Keeps allocation history bounded for long-running pages: every version of the last 200, every
+ * 10th of the last 2000, every 100th before that (the report charts at most 200 points anyway).
+ */
+export async function thinAllocationHistory(q: Queryable, pageId: number, version: number): Promise<void> {
+  await q.query(
+    `DELETE FROM allocation_record WHERE page_id = $1 AND version IN ($2 - 200, $2 - 2000)
+       AND version % CASE WHEN version = $2 - 200 THEN 10 ELSE 100 END <> 0`,
+    [pageId, version]);
+}
+
+/** Records a fold pass that found nothing to fold, so the page is not due again at once. */
+export async function touchFold(q: Queryable, pageId: number, at: Date): Promise<void> {
+  await q.query("UPDATE page SET last_fold_at = $2 WHERE id = $1", [pageId, at]);
+}
+
 export async function insertAllocations(q: Queryable, pageId: number, version: number, allocations: Record<string, unknown>, at: Date): Promise<void> {
   const segments = Object.keys(allocations);
   if (segments.length === 0) return;
