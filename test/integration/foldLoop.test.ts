@@ -91,6 +91,26 @@ forEachDatabase("fold loop", (open, target) => {
     });
   });
 
+  it.runIf(target.kind === "postgres")("tells another server process of a new model version through LISTEN/NOTIFY", async () => {
+    const db = await open();
+    const a = await startHarness(db);
+    // process B polls only once a minute: a prompt switch can only come from the notification
+    const other = await reopen(db);
+    const b = await startHarness(other, { pollMs: 60_000 });
+    try {
+      const page = await createPage(a, "notified", {});
+      expect((await b.server.services.serving.get(page.key)).version).toBe(1);
+      const fold = await a.server.services.folds.foldPage(page.id, true);
+      expect(fold).toMatchObject({ folded: true, version: 2 });
+      await waitUntil(async () => (await b.server.services.serving.get(page.key)).version === 2, 5000);
+    } finally {
+      await b.close();
+      await other.close();
+      await a.close();
+      await db.close();
+    }
+  });
+
   it("resumes after a restart without folding any pick twice, and the stored posterior equals a replay of the stored picks", async () => {
     const storage = await target.storage();
     try {
