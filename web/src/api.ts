@@ -19,7 +19,8 @@ export class ApiError extends Error {
 /** Fired when the server refuses the stored token, so the shell can return to sign-in. */
 export const SIGNED_OUT = "facetwise:signed-out";
 
-async function send(method: string, path: string, body?: unknown, token = getToken()): Promise<Response> {
+async function send(method: string, path: string, body?: unknown, candidate?: string): Promise<Response> {
+  const token = candidate ?? getToken();
   const headers: Record<string, string> = { Accept: "application/json" };
   if (token) headers.Authorization = `Bearer ${token}`;
   if (body !== undefined) headers["Content-Type"] = "application/json";
@@ -41,7 +42,7 @@ async function send(method: string, path: string, body?: unknown, token = getTok
   } catch {
     // a non-JSON error body (a proxy, a crash page): fall back to the status line below
   }
-  if (response.status === 401 && token) {
+  if (response.status === 401 && token && candidate === undefined) {
     clearToken();
     window.dispatchEvent(new Event(SIGNED_OUT));
   }

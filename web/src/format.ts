@@ -7,6 +7,16 @@ export function n(value: number | null | undefined): string {
   return value === null || value === undefined ? "—" : count.format(value);
 }
 
+/** "1 factor", "5 factors". */
+export function plural(count: number, word: string): string {
+  return `${n(count)} ${word}${count === 1 ? "" : "s"}`;
+}
+
+/** The live count line: "5 factors · 72 combinations · 3 excluded". */
+export function countLine(factors: number, total: number, excluded: number): string {
+  return `${plural(factors, "factor")} · ${plural(total, "combination")} · ${n(excluded)} excluded`;
+}
+
 /** A fraction as a percentage with enough digits to tell small rates apart (3.4 %, 0.42 %). */
 export function pct(value: number | null | undefined, digits?: number): string {
   if (value === null || value === undefined || !Number.isFinite(value)) return "—";
@@ -101,11 +111,10 @@ export function absoluteTime(iso: string): string {
 export function retiredReason(entry: RetiredReport, retireProbability: number | null | undefined): string {
   const f = entry.figures;
   if (entry.reason === "dominated") {
-    const floor = retireProbability ? ` (the floor is ${prob(retireProbability)})` : "";
+    const floor = retireProbability ? ` (below the ${prob(retireProbability)} floor)` : "";
     return (
-      `Its chance of being the best stayed at ${prob(f.probabilityBest)}${floor} for ${f.folds} ` +
-      `consecutive updates, and even its most optimistic rate, ${pct(f.upper)}, is below the leader's ` +
-      `most pessimistic rate, ${pct(f.leaderLower)}. Showing it again would very likely waste visitors.`
+      `Almost no chance of being the best: ${prob(f.probabilityBest)}${floor} for ${f.folds} updates in a row. ` +
+      `Even at its best it would convert ${pct(f.upper)}, less than the leader's worst case of ${pct(f.leaderLower)}.`
     );
   }
   return entry.reason;

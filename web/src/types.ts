@@ -37,7 +37,10 @@ export interface PageDefinitionBody {
   settings?: Settings;
 }
 
-export interface DefinitionCheck { factors: number; combinations: CombinationCounts; dimension: number }
+export interface DefinitionCheck { factors: { name: string; levels: string[] }[]; combinations: CombinationCounts; dimension: number }
+
+/** The part of a definition POST /definitions/check validates. */
+export interface DefinitionCore { factors: FactorSpec[]; exclude?: Exclusion[]; interactions?: [string, string][] }
 
 export interface LearnedNote {
   action: "unchanged" | "kept" | "remapped";

@@ -6,7 +6,7 @@
  */
 import { api, ApiError } from "../api.ts";
 import { h, replace, uid } from "../dom.ts";
-import { n } from "../format.ts";
+import { countLine, n } from "../format.ts";
 import { announce, pageHref, type View } from "../shell.ts";
 import { settingsForm } from "../settingsFields.ts";
 import type { DefinitionCheck, Page, PageDefinitionBody } from "../types.ts";
@@ -30,6 +30,8 @@ export function renderEditor(main: HTMLElement): View {
   let checkTimer = 0;
   let checkSeq = 0;
   let disposed = false;
+  // until the user has typed something, a failing check is just an empty form, not an error
+  let touched = false;
 
   const keyInput = h("input", {
     id: "page-key", name: "key", required: true, autocomplete: "off", spellcheck: "false",
@@ -91,10 +93,11 @@ export function renderEditor(main: HTMLElement): View {
   async function runCheck(): Promise<void> {
     const seq = ++checkSeq;
     try {
-      const result = await api<DefinitionCheck>("POST", "/definitions/check", body());
+      const { factors, exclude, interactions } = body();
+      const result = await api<DefinitionCheck>("POST", "/definitions/check", { factors, exclude, interactions });
       if (disposed || seq !== checkSeq) return;
       const c = result.combinations;
-      count.textContent = `${n(result.factors)} factors · ${n(c.total)} combinations · ${n(c.excluded)} excluded`;
+      count.textContent = countLine(result.factors.length, c.total, c.excluded);
       countDetail.textContent =
         `${n(c.allowed)} of them can be shown to visitors; the model learns ${n(result.dimension)} numbers ` +
         `(a baseline, one per level beyond each factor's first, and one per level pair of interacting factors).`;
@@ -102,7 +105,11 @@ export function renderEditor(main: HTMLElement): View {
       showFieldErrors(main, problems, null);
     } catch (error) {
       if (disposed || seq !== checkSeq) return;
-      if (error instanceof ApiError && error.status === 400) {
+      if (error instanceof ApiError && error.status === 400 && !touched) {
+        count.textContent = "Name a factor and its levels to see how many combinations they make.";
+        countDetail.textContent = "";
+        showFieldErrors(main, problems, null);
+      } else if (error instanceof ApiError && error.status === 400) {
         count.textContent = "Not valid yet";
         count.classList.add("invalid");
         countDetail.textContent = "The server's message says what to fix:";
@@ -369,7 +376,8 @@ export function renderEditor(main: HTMLElement): View {
     ),
   );
 
-  for (const input of [segmentInput]) input.addEventListener("input", scheduleCheck);
+  segmentInput.addEventListener("input", scheduleCheck);
+  for (const type of ["input", "change"]) form.addEventListener(type, () => (touched = true), { capture: true });
 
   form.addEventListener("submit", async (event) => {
     event.preventDefault();

@@ -21,8 +21,13 @@ export function showFieldErrors(root: HTMLElement, problems: HTMLElement, error:
   if (!error.field) return;
   let path = normaliseField(error.field);
   while (path) {
-    const slot = root.querySelector<HTMLElement>(`[data-error-for="${CSS.escape(path)}"]`);
-    const input = root.querySelector<HTMLElement>(`[data-field="${CSS.escape(path)}"]`);
+    // exact path first; a bare name (a setting's "attributionWindowHours") matches the field ending in it
+    const slot =
+      root.querySelector<HTMLElement>(`[data-error-for="${CSS.escape(path)}"]`) ??
+      root.querySelector<HTMLElement>(`[data-error-for$=".${CSS.escape(path)}"]`);
+    const input =
+      root.querySelector<HTMLElement>(`[data-field="${CSS.escape(path)}"]`) ??
+      root.querySelector<HTMLElement>(`[data-field$=".${CSS.escape(path)}"]`);
     if (slot || input) {
       if (slot) slot.textContent = error.message;
       input?.setAttribute("aria-invalid", "true");

@@ -6,10 +6,10 @@
  */
 import { api, ApiError } from "../api.ts";
 import { h, replace, uid, type Child } from "../dom.ts";
-import { n } from "../format.ts";
+import { countLine, n } from "../format.ts";
 import { announce } from "../shell.ts";
 import { settingsForm } from "../settingsFields.ts";
-import type { DefinitionCheck, FactorSpec, LearnedNote, Page, PageStatus } from "../types.ts";
+import type { DefinitionCheck, DefinitionCore, FactorSpec, LearnedNote, Page, PageStatus } from "../types.ts";
 import { showFieldErrors } from "./fieldErrors.ts";
 import { statusBadge } from "./parts.ts";
 
@@ -92,7 +92,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
   }
 
   /** The definition the page would have after the pending edits, for the server's count check. */
-  function nextDefinition() {
+  function nextDefinition(): DefinitionCore {
     const factors: FactorSpec[] = page.factors
       .filter((f) => !removedFactors.has(f.name))
       .map((f) => ({
@@ -106,7 +106,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
     const names = new Set(factors.map((f) => f.name));
     const exclude = page.exclude.filter((rule) => Object.entries(rule).every(([f, l]) => names.has(f) && !removedLevels.has(lk(f, l))));
     const interactions = page.interactions === null ? undefined : page.interactions.filter(([a, b]) => names.has(a) && names.has(b));
-    return { factors, exclude, segmentBy: page.segmentBy, ...(interactions ? { interactions } : {}) };
+    return { factors, exclude, ...(interactions ? { interactions } : {}) };
   }
 
   let timer = 0;
@@ -119,7 +119,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
     clearTimeout(timer);
     const structural = b.addFactors || b.removeFactors || b.addLevels || b.removeLevels;
     if (!structural) {
-      count.textContent = `Now: ${page.factors.length} factors · ${n(page.combinations.total)} combinations · ${n(page.combinations.excluded)} excluded`;
+      count.textContent = `Now: ${countLine(page.factors.length, page.combinations.total, page.combinations.excluded)}`;
       showFieldErrors(root, problems, null);
       return;
     }
@@ -128,7 +128,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
       try {
         const check = await api<DefinitionCheck>("POST", "/definitions/check", nextDefinition());
         if (mine !== seq) return;
-        count.textContent = `After these changes: ${n(check.factors)} factors · ${n(check.combinations.total)} combinations · ${n(check.combinations.excluded)} excluded`;
+        count.textContent = `After these changes: ${countLine(check.factors.length, check.combinations.total, check.combinations.excluded)}`;
         showFieldErrors(root, problems, null);
       } catch (error) {
         if (mine !== seq) return;

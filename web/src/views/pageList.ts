@@ -1,7 +1,7 @@
 /** The list of pages: what each one is, whether it is learning, and how much traffic it has seen. */
 import { api } from "../api.ts";
 import { h, replace } from "../dom.ts";
-import { n, pct, when } from "../format.ts";
+import { n, pct, plural, when } from "../format.ts";
 import { pageHref, type View } from "../shell.ts";
 import type { Page } from "../types.ts";
 import { statusBadge } from "./parts.ts";
@@ -65,7 +65,7 @@ function pageCard(page: Page): HTMLElement {
         "div",
         null,
         h("dt", null, "Design"),
-        h("dd", null, `${page.factors.length} factors · ${n(page.combinations.allowed)} combinations`),
+        h("dd", null, `${plural(page.factors.length, "factor")} · ${plural(page.combinations.allowed, "combination")}`),
       ),
       h("div", null, h("dt", null, "Visitors"), h("dd", null, n(page.totals.visitors))),
       h("div", null, h("dt", null, "Conversion rate"), h("dd", null, pct(rate))),

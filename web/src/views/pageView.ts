@@ -157,9 +157,12 @@ export function renderPageView(main: HTMLElement, route: Route): View {
     }
     const focusKey = (document.activeElement as HTMLElement | null)?.dataset?.focusKey;
     const width = panel.clientWidth || 640;
+    const scrollY = window.scrollY;
     if (tab === "results") replace(panel, renderResults(report, ui, width, () => drawPanel(false)));
     else replace(panel, renderRetired(report));
-    if (focusKey) panel.querySelector<HTMLElement>(`[data-focus-key="${CSS.escape(focusKey)}"]`)?.focus();
+    // focus returns to the control the user was on, without moving the page under them
+    if (focusKey) panel.querySelector<HTMLElement>(`[data-focus-key="${CSS.escape(focusKey)}"]`)?.focus({ preventScroll: true });
+    if (fromPoll && Math.abs(window.scrollY - scrollY) > 1) window.scrollTo(0, scrollY);
   }
 
   async function load(): Promise<void> {

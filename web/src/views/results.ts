@@ -313,8 +313,8 @@ function crossCheckCard(seg: SegmentReport, ui: UiState): HTMLElement {
       h("div", null, h("dt", null, "Baseline, as served"), h("dd", null, `${n(c.baseline.conversions)} of ${n(c.baseline.visitors)} (${pct(c.baseline.visitors ? c.baseline.conversions / c.baseline.visitors : null)})`)),
       h("div", null, h("dt", null, "Difference"), h("dd", null, `${pointsOf(lift.absolute.estimate)} (95 % CI ${pointsOf(lift.absolute.lower, true, false)} to ${pointsOf(lift.absolute.upper, true, false)})`)),
       h("div", null, h("dt", null, "Relative lift"), h("dd", null, `${signed(lift.relative.estimate)} (95 % CI ${signed(lift.relative.lower)} to ${signed(lift.relative.upper)})`)),
-      h("div", null, h("dt", null, "Two-proportion z-test"), h("dd", null, `z = ${c.zTest.z.toFixed(2)}, p = ${pValue(c.zTest.pValue)}`)),
-      h("div", null, h("dt", null, "Fisher exact test"), h("dd", null, `p = ${pValue(c.fisher.twoSided)} (two-sided)`)),
+      h("div", null, h("dt", null, "Two-proportion z-test"), h("dd", null, `z = ${c.zTest.z.toFixed(2)}, p ${pValue(c.zTest.pValue)}`)),
+      h("div", null, h("dt", null, "Fisher exact test"), h("dd", null, `p ${pValue(c.fisher.twoSided)} (two-sided)`)),
     ),
     panelDetails(ui, "cc-help", "Why these tests are only a cross-check",
       h("p", null, "These tests assume every visitor had a fixed chance of seeing each combination. facetwise moved traffic toward the leader as it learned, so the leader's sample is larger and was gathered when it looked good; the p-values and intervals above are therefore optimistic. Read the model's figures above for decisions and this box as a sanity check.")),
@@ -333,6 +333,7 @@ function pointsOf(v: number, sign = true, unit = true): string {
   return !sign || v === 0 ? text : v > 0 ? `+${text}` : `−${text}`;
 }
 
+/** "= 0.031" or "< 0.0001", to follow a "p". */
 function pValue(p: number): string {
-  return p < 0.0001 ? "< 0.0001" : p.toFixed(p < 0.01 ? 4 : 3);
+  return p < 0.0001 ? "< 0.0001" : `= ${p.toFixed(p < 0.01 ? 4 : 3)}`;
 }

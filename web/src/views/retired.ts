@@ -3,7 +3,7 @@
  * decision rested on, and when — plus any that forgetting brought back, with that reason too.
  */
 import { h, type Child } from "../dom.ts";
-import { absoluteTime, pct, prob, retiredReason, segmentLabel, when } from "../format.ts";
+import { absoluteTime, prob, retiredReason, segmentLabel, when } from "../format.ts";
 import type { Report, RetiredReport } from "../types.ts";
 import { comboChips } from "./parts.ts";
 
@@ -29,37 +29,45 @@ export function renderRetired(report: Report): Child[] {
   }
   return [
     intro,
-    segments.map((seg) =>
-      h(
+    segments.map((seg) => {
+      const entries = [...seg.retired].sort((a, b) => Date.parse(b.retiredAt) - Date.parse(a.retiredAt));
+      const leaders = new Set(entries.map((e) => e.figures.leader));
+      const sharedLeader = leaders.size === 1 ? entries[0].figures.leader : null;
+      return h(
         "section",
         { class: "panel", "aria-label": `Retired in ${segmentLabel(seg.segment)}` },
         h("h3", null, segmentLabel(seg.segment), h("span", { class: "muted" }, ` · ${seg.retired.filter((r) => !r.reinstatedAt).length} retired`)),
-        h("ul", { class: "retired-list" }, seg.retired.map((entry) => retiredItem(entry, floor))),
-      ),
-    ),
+        sharedLeader ? h("p", { class: "hint" }, "Each was compared with the leader at the time: ", comboChips(sharedLeader)) : null,
+        h(
+          "div",
+          { class: "table-wrap" },
+          h(
+            "table",
+            { class: "data stack retired-table" },
+            h("caption", { class: "visually-hidden" }, `Combinations retired in ${segmentLabel(seg.segment)}, newest first`),
+            h("thead", null, h("tr", null, h("th", { scope: "col" }, "Combination"), h("th", { scope: "col" }, "Why, in plain words"), h("th", { scope: "col" }, "When"))),
+            h("tbody", null, entries.map((entry) => retiredRow(entry, floor, sharedLeader === null))),
+          ),
+        ),
+      );
+    }),
   ];
 }
 
-function retiredItem(entry: RetiredReport, floor: number | null | undefined): HTMLElement {
-  const f = entry.figures;
+function retiredRow(entry: RetiredReport, floor: number | null | undefined, showLeader: boolean): HTMLElement {
   return h(
-    "li",
-    { class: entry.reinstatedAt ? "retired-item reinstated" : "retired-item", "data-testid": "retired-item" },
-    h("div", { class: "retired-head" }, comboChips(entry.combination),
-      h("span", { class: "badge" }, h("span", { "aria-hidden": "true" }, entry.reinstatedAt ? "↺" : "✕"), entry.reinstatedAt ? " Brought back" : " Retired")),
-    h("p", null, retiredReason(entry, typeof floor === "number" ? floor : null)),
-    h(
-      "dl",
-      { class: "figures small" },
-      h("div", null, h("dt", null, "Chance of being best"), h("dd", null, prob(f.probabilityBest))),
-      h("div", null, h("dt", null, "Its best plausible rate"), h("dd", null, pct(f.upper))),
-      h("div", null, h("dt", null, "Leader's worst plausible rate"), h("dd", null, pct(f.leaderLower))),
-      h("div", null, h("dt", null, "Updates in a row below the floor"), h("dd", null, String(f.folds))),
-      h("div", { class: "wide" }, h("dt", null, "Leader at the time"), h("dd", null, comboChips(f.leader))),
-      h("div", null, h("dt", null, "Retired"), h("dd", null, h("time", { datetime: entry.retiredAt, title: absoluteTime(entry.retiredAt) }, `${when(entry.retiredAt)} · ${absoluteTime(entry.retiredAt)}`))),
+    "tr",
+    { class: entry.reinstatedAt ? "reinstated" : null, "data-testid": "retired-item" },
+    h("td", { class: "combo-cell", "data-label": "Combination" }, comboChips(entry.combination),
+      entry.reinstatedAt ? h("span", { class: "tag" }, "↺ brought back") : null),
+    h("td", { "data-label": "Why" },
+      h("span", null, retiredReason(entry, typeof floor === "number" ? floor : null)),
+      showLeader ? h("span", { class: "hint" }, " Leader then: ", comboChips(entry.figures.leader)) : null,
       entry.reinstatedAt
-        ? h("div", null, h("dt", null, "Brought back"), h("dd", null, `${when(entry.reinstatedAt)}${entry.reinstateReason ? ` — ${entry.reinstateReason}` : ""}`))
-        : null,
-    ),
+        ? h("span", { class: "hint" }, ` Brought back ${when(entry.reinstatedAt)}${entry.reinstateReason ? `: ${entry.reinstateReason}` : "."}`)
+        : null),
+    h("td", { class: "nowrap", "data-label": "When" },
+      h("time", { datetime: entry.retiredAt, title: absoluteTime(entry.retiredAt) }, when(entry.retiredAt)),
+      h("span", { class: "hint when-abs" }, absoluteTime(entry.retiredAt))),
   );
 }
