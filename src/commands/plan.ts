@@ -25,8 +25,8 @@ Required:
   --visitors-per-day V   traffic to the page
 
 Options:
-  --days D               simulated horizon in days (default 14)
-  --draws R              random truths to simulate (default 12)
+  --days D               simulated horizon in days (default 10)
+  --draws R              random truths to simulate (default 8)
   --seed S               seed (default 1)
   --threads T            worker threads (default: the machine's cores)
   --json                 print one JSON object instead of the table`;
@@ -94,8 +94,8 @@ export async function run(argv: string[]): Promise<number> {
     max: 1e8,
     exclusiveMin: true,
   });
-  const horizonDays = numberFlag("days", values.days, 14, { min: 0.1, max: 365 });
-  const draws = numberFlag("draws", values.draws, 12, { min: 1, max: 1000, integer: true });
+  const horizonDays = numberFlag("days", values.days, 10, { min: 0.1, max: 365 });
+  const draws = numberFlag("draws", values.draws, 8, { min: 1, max: 1000, integer: true });
   const seed = numberFlag("seed", values.seed, 1, { min: 0, max: 2 ** 31, integer: true });
   const threads = values.threads === undefined ? undefined : numberFlag("threads", values.threads, 1, { min: 1, max: 256, integer: true });
   const combinations = levels.reduce((a, b) => a * b, 1);

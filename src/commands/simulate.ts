@@ -91,10 +91,10 @@ export async function run(argv: string[]): Promise<number> {
   if (values.out !== undefined) {
     mkdirSync(values.out, { recursive: true });
     writeFileSync(join(values.out, "report.json"), JSON.stringify(report, null, 2) + "\n");
-    writeFileSync(join(values.out, "regret.svg"), regretChart(results, visitors, `Cumulative regret — ${scenario.name}`));
+    writeFileSync(join(values.out, "regret.svg"), regretChart(results, visitors, scenario.name));
     writeFileSync(
       join(values.out, "best-share.svg"),
-      bestShareChart(results, visitors, scenario.segments.map((s) => s.name), prepared.keys.length, `Traffic on the true best — ${scenario.name}`),
+      bestShareChart(results, visitors, scenario.segments.map((s) => s.name), prepared.keys.length, scenario.name),
     );
   }
   if (values.json) console.log(JSON.stringify(report));

@@ -15,7 +15,7 @@ function xAt(visitors: number, points: number, b: number): number {
   return Math.round(((b + 1) * visitors) / points);
 }
 
-export function regretChart(results: RunResult[], visitors: number, title: string): string {
+export function regretChart(results: RunResult[], visitors: number, scenario: string): string {
   const series: Series[] = POLICY_NAMES.map((name) => {
     const points = results[0]![name].curve.length;
     const at = (b: number): number[] => results.map((r) => r[name].curve[b]!);
@@ -27,7 +27,13 @@ export function regretChart(results: RunResult[], visitors: number, title: strin
       band: [[0, 0, 0], ...xs.map((b): [number, number, number] => [xAt(visitors, points, b), quantile(at(b), 0.1), quantile(at(b), 0.9)])],
     };
   });
-  return svgLineChart({ title, xLabel: "visitors", yLabel: "cumulative regret (conversions lost)", series });
+  return svgLineChart({
+    title: `Cumulative regret, mean and p10–p90 over ${results.length} runs`,
+    subtitle: scenario,
+    xLabel: "visitors",
+    yLabel: "cumulative regret (conversions lost)",
+    series,
+  });
 }
 
 export function bestShareChart(
@@ -35,7 +41,7 @@ export function bestShareChart(
   visitors: number,
   segmentNames: string[],
   combinationCount: number,
-  title: string,
+  scenario: string,
 ): string {
   const series: Series[] = [];
   const shown = segmentNames.slice(0, SEGMENT_COLOURS.length);
@@ -54,5 +60,13 @@ export function bestShareChart(
     });
   }
   series.push({ name: `split (1/${combinationCount})`, colour: "#999999", dashed: true, points: [[0, 1 / combinationCount], [visitors, 1 / combinationCount]] });
-  return svgLineChart({ title, xLabel: "visitors", yLabel: "share served the true best", series, yMin: 0, yMax: 1 });
+  return svgLineChart({
+    title: "Share of each segment's traffic on its true best page",
+    subtitle: scenario,
+    xLabel: "visitors",
+    yLabel: "share served the true best",
+    series,
+    yMin: 0,
+    yMax: 1,
+  });
 }

@@ -13,6 +13,8 @@ export interface Series {
 
 export interface ChartSpec {
   title: string;
+  /** Second line under the title (shortened to fit). */
+  subtitle?: string;
   xLabel: string;
   yLabel: string;
   series: Series[];
@@ -42,7 +44,7 @@ export function svgLineChart(spec: ChartSpec): string {
   const width = spec.width ?? 760;
   const height = spec.height ?? 420;
   const legendWidth = 190;
-  const m = { left: 70, right: 20 + legendWidth, top: 40, bottom: 50 };
+  const m = { left: 70, right: 20 + legendWidth, top: spec.subtitle ? 54 : 40, bottom: 50 };
   const plotW = width - m.left - m.right;
   const plotH = height - m.top - m.bottom;
   const all = spec.series.flatMap((s) => [...s.points, ...(s.band ?? []).flatMap(([x, lo, hi]) => [[x, lo], [x, hi]] as [number, number][])]);
@@ -56,6 +58,11 @@ export function svgLineChart(spec: ChartSpec): string {
     `<rect width="${width}" height="${height}" fill="#ffffff"/>`,
     `<text x="${m.left}" y="22" font-size="15" font-weight="600">${escape(spec.title)}</text>`,
   ];
+  if (spec.subtitle) {
+    const room = Math.floor((width - m.left - 10) / 6.5);
+    const text = spec.subtitle.length > room ? `${spec.subtitle.slice(0, room - 1)}…` : spec.subtitle;
+    out.push(`<text x="${m.left}" y="40" fill="#555">${escape(text)}</text>`);
+  }
   const xStep = tickStep(xMax, 6);
   for (let x = 0; x <= xMax + 1e-9; x += xStep) {
     out.push(`<line x1="${xs(x)}" y1="${m.top}" x2="${xs(x)}" y2="${m.top + plotH}" stroke="#eeeeee"/>`);
