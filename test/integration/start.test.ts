@@ -1,7 +1,8 @@
 /**
  * `facetwise start` as a user runs it: a child process on a fresh data folder prints the console
  * URL and the admin token once, seeds the demo page, serves the API and the console, stops cleanly
- * on SIGTERM (exit 0), and on the next start keeps its data and does not print the token again.
+ * on SIGTERM (exit 0), and on the next start keeps its data and does not print the token again;
+ * then `facetwise export` prints that data.
  */
 import { expect, it } from "vitest";
 import { spawn } from "node:child_process";
@@ -10,6 +11,18 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 
 const root = new URL("../../", import.meta.url).pathname;
+
+async function run(args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
+  const child = spawn(process.execPath, [join(root, "node_modules/tsx/dist/cli.mjs"), join(root, "src/cli.ts"), ...args], {
+    cwd: root, env: { ...process.env, DATABASE_URL: "" }, stdio: ["ignore", "pipe", "pipe"],
+  });
+  let stdout = "";
+  let stderr = "";
+  child.stdout.on("data", (chunk) => (stdout += chunk));
+  child.stderr.on("data", (chunk) => (stderr += chunk));
+  const code = await new Promise<number | null>((resolve) => child.on("exit", resolve));
+  return { code, stdout, stderr };
+}
 
 interface Started { output: () => string; url: string; stop(): Promise<number | null> }
 
@@ -58,6 +71,16 @@ it("starts, prints the URL and token once, seeds the demo, serves, and stops cle
     expect(body.pages.map((p) => p.key)).toEqual(["bike-repair-demo"]);
     expect(body.pages[0].totals.visitors).toBeGreaterThan(0);
     expect(await second.stop()).toBe(0);
+
+    // facetwise export on the stopped server's data: RFC 4180 CSV on stdout, exit 0
+    const csv = await run(["export", "bike-repair-demo", "--format", "csv", "--data", dataDir]);
+    expect(csv.code).toBe(0);
+    expect(csv.stdout.split("\r\n")[0]).toMatch(/^segment,status,combination,probability_best,rate_mean,rate_lower,rate_upper,headline,headline_value,/);
+    // an error is one clear line on stderr and a non-zero exit
+    const missing = await run(["export", "no-such-page", "--data", dataDir]);
+    expect(missing.code).toBe(1);
+    expect(missing.stderr.trim().split("\n")).toHaveLength(1);
+    expect(missing.stderr).toMatch(/^facetwise: No page with key "no-such-page"/);
   } finally {
     rmSync(dataDir, { recursive: true, force: true });
   }
