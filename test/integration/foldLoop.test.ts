@@ -75,6 +75,24 @@ forEachDatabase("fold loop", (open, target) => {
       expect(again).toMatchObject({ folded: true, picks: 0 });
     });
 
+    it("serves segments beyond maxSegments from the pooled model and still learns from them", async () => {
+      const page = await createPage(h, "overflow-page", { maxSegments: 1 });
+      const first = await h.pick(page, "o1", { source: "search" });
+      const beyond = await h.pick(page, "o2", { source: "social" });
+      expect(first.body.segment).toBe("source=search");
+      expect(beyond.body.segment).toBe("*");
+      await h.outcome(page, { pick: beyond.body.pick, event: "o2-conv" });
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
+      const fold = await h.server.services.folds.foldPage(page.id, true);
+      expect(fold).toMatchObject({ folded: true, picks: 2 });
+      const report = (await h.admin("GET", `/pages/${page.key}/report`)).body;
+      expect(report.segments.map((s: { segment: string }) => s.segment)).toEqual(["source=search"]);
+      expect(report.pooled).toMatchObject({ visitors: 2, conversions: 1, folded: 2 });
+      const snapshot = (await loadSnapshot(h.db.pool, page.id, fold.folded ? fold.version : 0))!;
+      const overflow = deserializeState(snapshot.state).sites.get("*")!;
+      expect({ visitors: overflow.visitors, conversions: overflow.conversions }).toEqual({ visitors: 1, conversions: 1 });
+    });
+
     it("lets one folder fold a due page at a time", async () => {
       const page = await createPage(h, "one-folder", { foldIntervalSeconds: 1 });
       for (const v of ["p", "q", "r"]) await h.pick(page, v, { source: "search" });
