@@ -25,6 +25,13 @@ export interface AppOptions {
 
 const pageKey = (req: Request): string => parse(pageKeySchema, req.params.key, "key");
 
+/**
+ * The page's public key: the X-Page-Key header, or `?pageKey=` for navigator.sendBeacon, which
+ * cannot set headers (the key is not a secret: it ships in the landing page's HTML anyway).
+ */
+const publicKeyOf = (req: Request): string | undefined =>
+  req.get("x-page-key") ?? (typeof req.query.pageKey === "string" ? req.query.pageKey : undefined);
+
 export function createApp(services: Services, options: AppOptions = {}): express.Express {
   const adminLimit = options.adminBodyLimit ?? "1mb";
   const publicLimit = options.publicBodyLimit ?? "16kb";
@@ -48,12 +55,12 @@ export function createApp(services: Services, options: AppOptions = {}): express
   publicApi.post("/pages/:key/picks", async (req, res) => {
     const key = pageKey(req);
     const body = parse(pickSchema, req.body);
-    res.json(await services.picks.pick(key, req.get("x-page-key"), body));
+    res.json(await services.picks.pick(key, publicKeyOf(req), body));
   });
   publicApi.post("/pages/:key/outcomes", async (req, res) => {
     const key = pageKey(req);
     const body = parse(outcomeSchema, req.body);
-    res.status(202).json(await services.outcomes.record(key, req.get("x-page-key"), body));
+    res.status(202).json(await services.outcomes.record(key, publicKeyOf(req), body));
   });
   app.use("/api/v1", (req, res, next) => {
     // route public paths (incl. their CORS preflight) to the public router only
