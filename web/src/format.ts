@@ -22,21 +22,21 @@ export function pct(value: number | null | undefined, digits?: number): string {
   if (value === null || value === undefined || !Number.isFinite(value)) return "—";
   const p = value * 100;
   const d = digits ?? (Math.abs(p) >= 10 ? 1 : Math.abs(p) >= 1 ? 2 : Math.abs(p) >= 0.01 || p === 0 ? 2 : 3);
-  if (p !== 0 && Math.abs(p) < 0.001) return p > 0 ? "< 0.001 %" : "> −0.001 %";
-  return `${p.toFixed(d)} %`;
+  if (p !== 0 && Math.abs(p) < 0.001) return p > 0 ? "< 0.001\u00a0%" : "> −0.001\u00a0%";
+  return `${p.toFixed(d)}\u00a0%`;
 }
 
 /** A probability of being best: keeps "> 99.9 %" and "< 0.1 %" honest instead of rounding to 100 or 0. */
 export function prob(value: number | null | undefined): string {
   if (value === null || value === undefined) return "—";
-  if (value >= 0.9995 && value < 1) return "> 99.9 %";
-  if (value > 0 && value < 0.0005) return "< 0.1 %";
-  return `${(value * 100).toFixed(1)} %`;
+  if (value >= 0.9995 && value < 1) return "> 99.9\u00a0%";
+  if (value > 0 && value < 0.0005) return "< 0.1\u00a0%";
+  return `${(value * 100).toFixed(1)}\u00a0%`;
 }
 
 export function rateWithInterval(rate: RateInterval | null | undefined): string {
   if (!rate) return "—";
-  return `${pct(rate.mean)} (95 % interval ${pct(rate.lower)} – ${pct(rate.upper)})`;
+  return `${pct(rate.mean)} (95\u00a0% interval ${pct(rate.lower)} – ${pct(rate.upper)})`;
 }
 
 export function ratio(value: number): string {

@@ -5,7 +5,7 @@
  * stops; the count line and the server's own messages update in place without disturbing focus.
  */
 import { api, ApiError } from "../api.ts";
-import { h, replace, uid } from "../dom.ts";
+import { asColour, h, replace, uid } from "../dom.ts";
 import { countLine, n } from "../format.ts";
 import { announce, pageHref, type View } from "../shell.ts";
 import { settingsForm } from "../settingsFields.ts";
@@ -92,6 +92,10 @@ export function renderEditor(main: HTMLElement): View {
 
   async function runCheck(): Promise<void> {
     const seq = ++checkSeq;
+    if (!touched) {
+      count.textContent = "Name a factor and its levels to see how many combinations they make.";
+      return;
+    }
     try {
       const { factors, exclude, interactions } = body();
       const result = await api<DefinitionCheck>("POST", "/definitions/check", { factors, exclude, interactions });
@@ -105,11 +109,7 @@ export function renderEditor(main: HTMLElement): View {
       showFieldErrors(main, problems, null);
     } catch (error) {
       if (disposed || seq !== checkSeq) return;
-      if (error instanceof ApiError && error.status === 400 && !touched) {
-        count.textContent = "Name a factor and its levels to see how many combinations they make.";
-        countDetail.textContent = "";
-        showFieldErrors(main, problems, null);
-      } else if (error instanceof ApiError && error.status === 400) {
+      if (error instanceof ApiError && error.status === 400) {
         count.textContent = "Not valid yet";
         count.classList.add("invalid");
         countDetail.textContent = "The server's message says what to fix:";
@@ -139,7 +139,7 @@ export function renderEditor(main: HTMLElement): View {
     const nameId = uid("factor-name");
     const nameIn = h("input", {
       id: nameId, value: factor.name, autocomplete: "off", "data-field": `factors.${fi}.name`,
-      placeholder: fi === 0 ? "headline" : "hero", "aria-describedby": `${nameId}-err`,
+      placeholder: ["headline", "hero", "button"][fi] ?? "factor name", "aria-describedby": `${nameId}-err`,
     });
     nameIn.addEventListener("input", () => {
       factor.name = nameIn.value;
@@ -184,25 +184,34 @@ export function renderEditor(main: HTMLElement): View {
   function levelRow(factor: DraftFactor, level: DraftLevel, fi: number, li: number): HTMLElement {
     const nameIn = h("input", {
       value: level.name, autocomplete: "off", "data-field": `factors.${fi}.levels.${li}.name`,
-      "aria-label": `Factor ${fi + 1}, level ${li + 1} name`, placeholder: li === 0 ? "plain" : "question",
+      "aria-label": `Factor ${fi + 1}, level ${li + 1} name`, placeholder: fi > 0 ? "level name" : li === 0 ? "plain" : "question",
     });
     const valueIn = h("input", {
       value: level.value, autocomplete: "off", "data-field": `factors.${fi}.levels.${li}.value`,
-      "aria-label": `Factor ${fi + 1}, level ${li + 1} value`, placeholder: li === 0 ? "Book a repair" : "Broken bike? Fixed today.",
+      "aria-label": `Factor ${fi + 1}, level ${li + 1} value`, placeholder: fi > 0 ? "text, #colour or image address" : li === 0 ? "Book a repair" : "Broken bike? Fixed today.",
     });
     nameIn.addEventListener("input", () => {
       level.name = nameIn.value;
       namesChanged();
     });
+    // a colour value gets a swatch inside its field, so a typo in "#2f6f73" shows at once
+    const swatch = h("span", { class: "swatch", "aria-hidden": "true" });
+    const paint = () => {
+      const colour = asColour(valueIn.value);
+      swatch.hidden = colour === null;
+      if (colour) swatch.style.backgroundColor = colour;
+    };
+    paint();
     valueIn.addEventListener("input", () => {
       level.value = valueIn.value;
+      paint();
       scheduleCheck();
     });
     return h(
       "div",
       { class: "level-row" },
       nameIn,
-      valueIn,
+      h("span", { class: "value-wrap" }, valueIn, swatch),
       h("button", {
         type: "button", class: "quiet icon", "aria-label": `Remove level ${li + 1} of factor ${fi + 1}`, title: "Remove level",
         onclick: () => {

@@ -60,7 +60,7 @@ function retiredRow(entry: RetiredReport, floor: number | null | undefined, show
     { class: entry.reinstatedAt ? "reinstated" : null, "data-testid": "retired-item" },
     h("td", { class: "combo-cell", "data-label": "Combination" }, comboChips(entry.combination),
       entry.reinstatedAt ? h("span", { class: "tag" }, "↺ brought back") : null),
-    h("td", { "data-label": "Why" },
+    h("td", { class: "wide", "data-label": "Why" },
       h("span", null, retiredReason(entry, typeof floor === "number" ? floor : null)),
       showLeader ? h("span", { class: "hint" }, " Leader then: ", comboChips(entry.figures.leader)) : null,
       entry.reinstatedAt
