@@ -57,7 +57,7 @@ async function startServer(): Promise<Server> {
   let out = "";
   child.stdout?.on("data", (chunk: Buffer) => (out += chunk.toString()));
   child.stderr?.on("data", (chunk: Buffer) => (out += chunk.toString()));
-  const deadline = Date.now() + 90_000;
+  const deadline = Date.now() + 120_000;
   while (Date.now() < deadline) {
     const url = /console:\s+(http:\/\/\S+?)\/?\s/.exec(out)?.[1];
     const token = /admin token[^\n]*\n\s+(\S+)/.exec(out)?.[1];
@@ -135,7 +135,7 @@ describe.runIf(haveChromium)("admin console in Chromium", () => {
     page = context.pages()[0] ?? (await context.newPage());
     page.on("framenavigated", (frame) => visited.push(frame.url()));
     page.on("request", (request) => visited.push(request.url()));
-  }, 150_000);
+  }, 180_000);
 
   afterAll(async () => {
     await context?.close();

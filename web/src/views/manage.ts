@@ -291,15 +291,18 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
 }
 
 function learnedBox(note: LearnedNote): HTMLElement {
+  const lists = [
+    note.droppedFeatures.length ? h("li", null, `Dropped: ${note.droppedFeatures.join(", ")}.`) : null,
+    note.addedFeatures.length ? h("li", null, `Starting from the prior: ${note.addedFeatures.join(", ")}.`) : null,
+    note.droppedOpenPicks ? h("li", null, `${n(note.droppedOpenPicks)} visits still inside their attribution window no longer count.`) : null,
+  ].filter(Boolean);
   return h(
     "div",
     { class: "panel learned", tabindex: "-1" },
     h("h2", null, "Done. What happened to what was learned"),
     h("p", null, note.message),
-    h("ul", { class: "plain" },
-      note.action !== "unchanged" ? h("li", null, `${n(note.keptFeatures)} learned numbers kept.`) : null,
-      note.droppedFeatures.length ? h("li", null, `Dropped: ${note.droppedFeatures.join(", ")}.`) : null,
-      note.addedFeatures.length ? h("li", null, `Starting fresh: ${note.addedFeatures.join(", ")}.`) : null,
-      note.droppedOpenPicks ? h("li", null, `${n(note.droppedOpenPicks)} visits still inside their attribution window no longer count.`) : null),
+    lists.length
+      ? h("details", { class: "more" }, h("summary", null, `The model's numbers: ${n(note.keptFeatures)} kept, ${note.droppedFeatures.length} dropped, ${note.addedFeatures.length} new`), h("ul", null, lists))
+      : null,
   );
 }

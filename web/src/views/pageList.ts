@@ -29,7 +29,17 @@ export function renderPageList(main: HTMLElement): View {
       if (pages.length === 0) {
         replace(list, h("p", { class: "panel" }, "No pages yet. ", h("a", { href: "#/new" }, "Define the first one"), "."));
       } else {
-        replace(list, pages.map(pageCard));
+        const demo = pages.find((p) => p.demo);
+        replace(
+          list,
+          demo ? h("aside", { class: "panel intro", "aria-label": "Getting started" },
+            h("h2", null, "New here? Start with the demo"),
+            h("ol", null,
+              h("li", null, "Open ", h("a", { href: pageHref(demo.key) }, demo.name), " and press ", h("strong", null, "Send demo visitors"), "."),
+              h("li", null, "Watch each traffic source find its own winner under ", h("strong", null, "Results"), ", and losing combinations being retired."),
+              h("li", null, "When a segment says ", h("strong", null, "Settled"), ", download the winners from ", h("strong", null, "Export & integrate"), "."))) : null,
+          pages.map(pageCard),
+        );
       }
     } catch (error) {
       if (!disposed) replace(list, h("p", { class: "form-error", role: "alert" }, (error as Error).message));

@@ -134,6 +134,7 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       if (!manageMounted) {
         replace(panel, renderManage(page, (updated) => {
           page = updated;
+          if (report) report.status = updated.status;
           setFactorOrder(updated.factors.map((f) => f.name));
           drawHead();
         }));
