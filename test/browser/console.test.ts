@@ -299,6 +299,23 @@ describe.runIf(haveChromium)("admin console in Chromium", () => {
     await expect.poll(() => page.textContent(".consequences")).toContain("Rename the page");
   });
 
+  it("is usable by keyboard: arrow keys move between tabs, Enter chooses a segment", async () => {
+    await page.goto(`${server.url}/#/p/bike-repair-demo/results`);
+    await page.waitForSelector("[data-testid=leader]");
+    await page.focus("#tab-results");
+    await page.keyboard.press("ArrowRight");
+    await expect.poll(() => page.evaluate(() => document.activeElement?.id)).toBe("tab-retired");
+    expect(page.url()).toContain("/retired");
+    await page.keyboard.press("ArrowLeft");
+    await expect.poll(() => page.evaluate(() => document.activeElement?.id)).toBe("tab-results");
+    const second = page.locator("table.overview tbody tr:nth-child(2) button");
+    const name = (await second.textContent()) ?? "";
+    await second.focus();
+    await page.keyboard.press("Enter");
+    await expect.poll(() => page.textContent("#segment-title")).toContain(name);
+    expect(await second.getAttribute("aria-pressed")).toBe("true");
+  });
+
   it("downloads the CSV export with one row per segment matching the JSON export", async () => {
     await page.click("role=tab[name='Export & integrate']");
     // demo traffic may fold a new model between the two downloads; compare a pair from one model version
