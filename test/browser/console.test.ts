@@ -246,7 +246,7 @@ describe.runIf(haveChromium)("admin console in Chromium", () => {
     const created = await api<{ publicKey: string }>("GET", "/pages/winter-tyres");
     // demo traffic for this test page through the public API (invented rates: they only feed the screen)
     const rate = (combo: Record<string, { level: string }>) => (combo.hero.level === "photo" ? 0.5 : 0.1);
-    for (let i = 0; i < 240; i += 1) {
+    const visit = async (i: number) => {
       const pick = await api<{ pick: string; combination: Record<string, { level: string }> }>(
         "POST", "/pages/winter-tyres/picks", { visitor: `v${i}`, context: { source: i % 2 ? "search" : "social" } },
         { "X-Page-Key": created.publicKey, Authorization: "" },
@@ -254,6 +254,9 @@ describe.runIf(haveChromium)("admin console in Chromium", () => {
       if (((i * 7919) % 100) / 100 < rate(pick.combination)) {
         await api("POST", "/pages/winter-tyres/outcomes", { pick: pick.pick }, { "X-Page-Key": created.publicKey, Authorization: "" });
       }
+    };
+    for (let batch = 0; batch < 10; batch += 1) {
+      await Promise.all(Array.from({ length: 20 }, (_, j) => visit(batch * 20 + j)));
     }
     await page.goto(`${server.url}/#/p/winter-tyres/results`);
     await page.waitForSelector("table.overview tbody tr:nth-child(3)", { timeout: 45_000 });
@@ -266,9 +269,9 @@ describe.runIf(haveChromium)("admin console in Chromium", () => {
 
   it("streams demo traffic on the demo page until leaders and a retired combination appear", async () => {
     await page.goto(`${server.url}/#/p/bike-repair-demo`);
-    await page.selectOption("#demo-visitors", "5000");
+    await page.selectOption("#demo-visitors", "2000");
     await page.click("text=Send demo visitors");
-    await expect.poll(() => page.textContent(".demo [role=status]")).toMatch(/Sending 5,000 visitors/);
+    await expect.poll(() => page.textContent(".demo [role=status]")).toMatch(/Sending 2,000 visitors/);
     await page.waitForSelector("[data-testid=leader]", { timeout: 60_000 });
     await page.waitForSelector(".tab .count-pill", { timeout: 90_000 });
     await shot("demo-results-1280");

@@ -50,6 +50,8 @@ function route(): void {
   if (next.name === "new") current = renderEditor(main);
   else if (next.name === "page") current = renderPageView(main, next);
   else current = renderPageList(main);
+  // a new view: keyboard and screen-reader users start at its content, not back in the top bar
+  if (!main.contains(document.activeElement)) main.focus({ preventScroll: true });
 }
 
 window.addEventListener("hashchange", route);

@@ -386,6 +386,13 @@ export function renderEditor(main: HTMLElement): View {
   );
 
   segmentInput.addEventListener("input", scheduleCheck);
+  // the key follows the name ("Spring sale" → "spring-sale") until the user edits the key itself
+  let keyEdited = false;
+  keyInput.addEventListener("input", () => (keyEdited = keyInput.value !== ""));
+  nameInput.addEventListener("input", () => {
+    if (keyEdited) return;
+    keyInput.value = nameInput.value.toLowerCase().normalize("NFKD").replace(/[^a-z0-9]+/g, "-").replace(/^-+|-+$/g, "").slice(0, 63);
+  });
   for (const type of ["input", "change"]) form.addEventListener(type, () => (touched = true), { capture: true });
 
   form.addEventListener("submit", async (event) => {

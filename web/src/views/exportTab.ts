@@ -7,10 +7,10 @@ import { ApiError, api, download } from "../api.ts";
 import { h, replace } from "../dom.ts";
 import { absoluteTime, pct, prob, segmentLabel } from "../format.ts";
 import { announce } from "../shell.ts";
-import type { ExportJson, Page, Report } from "../types.ts";
+import type { ExportJson, Page } from "../types.ts";
 import { levelValue, segmentBadge } from "./parts.ts";
 
-export function renderExport(page: Page): { element: HTMLElement; refresh(report: Report | null): void } {
+export function renderExport(page: Page): { element: HTMLElement; refresh(): void } {
   const preview = h("div", { class: "table-wrap", "aria-live": "off" }, h("p", { class: "hint" }, "Loading the export…"));
   const downloadNote = h("p", { class: "hint", role: "status" });
   const path = `/pages/${encodeURIComponent(page.key)}/export`;

@@ -52,8 +52,8 @@ export function renderPageView(main: HTMLElement, route: Route): View {
   const demoSlot = h("div");
   const tabBar = h("div", { class: "tabs", role: "tablist", "aria-label": "Page sections" });
   const panel = h("section", { class: "tab-panel", role: "tabpanel", tabindex: "-1" });
-  let manageMounted = false;
-  let exportMounted: ReturnType<typeof renderExport> | null = null;
+  let manageElement: HTMLElement | null = null;
+  let exportView: ReturnType<typeof renderExport> | null = null;
 
   replace(
     main,
@@ -130,28 +130,23 @@ export function renderPageView(main: HTMLElement, route: Route): View {
   function drawPanel(fromPoll: boolean): void {
     if (!page) return;
     if (tab === "manage") {
-      // a form: mounted once per visit to the tab, never re-drawn under the user's typing
-      if (!manageMounted) {
-        replace(panel, renderManage(page, (updated) => {
+      // a form: built once per page view and kept while other tabs are shown, so unsaved edits
+      // survive tab switches; never re-drawn under the user's typing
+      manageElement ??= renderManage(page, (updated) => {
           page = updated;
           if (report) report.status = updated.status;
           setFactorOrder(updated.factors.map((f) => f.name));
           drawHead();
-        }));
-        manageMounted = true;
-      }
+      });
+      if (panel.firstChild !== manageElement) replace(panel, manageElement);
       return;
     }
-    manageMounted = false;
     if (tab === "export") {
-      if (!exportMounted) {
-        exportMounted = renderExport(page);
-        replace(panel, exportMounted.element);
-      }
-      if (fromPoll || report) exportMounted.refresh(report);
+      exportView ??= renderExport(page);
+      if (panel.firstChild !== exportView.element) replace(panel, exportView.element);
+      exportView.refresh();
       return;
     }
-    exportMounted = null;
     if (!report) {
       replace(panel, h("p", { class: "hint" }, "Loading the report…"));
       return;
@@ -167,6 +162,11 @@ export function renderPageView(main: HTMLElement, route: Route): View {
   }
 
   async function load(): Promise<void> {
+    // a hidden tab does not poll; it catches up as soon as it is shown again
+    if (document.hidden && page !== null) {
+      schedule(SLOW_POLL_MS);
+      return;
+    }
     try {
       const [p, r] = await Promise.all([
         api<Page>("GET", `/pages/${encodeURIComponent(key)}`),
@@ -214,6 +214,10 @@ export function renderPageView(main: HTMLElement, route: Route): View {
     }, 150);
   };
   window.addEventListener("resize", onResize);
+  const onVisible = () => {
+    if (!document.hidden) schedule(0);
+  };
+  document.addEventListener("visibilitychange", onVisible);
 
   drawTabs();
   void load();
@@ -233,6 +237,7 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       disposed = true;
       clearTimeout(timer);
       window.removeEventListener("resize", onResize);
+      document.removeEventListener("visibilitychange", onVisible);
     },
   };
 }
