@@ -23,7 +23,7 @@ export function toHttpError(error: unknown, bodyLimit: string): FacetwiseError {
 export function errorHandler(bodyLimit: string) {
   return (error: unknown, req: Request, res: Response, _next: NextFunction): void => {
     const mapped = toHttpError(error, bodyLimit);
-    if (mapped.code === "INTERNAL") console.error(`facetwise: ${req.method} ${req.path} failed (${mapped.message}):`, error);
+    if (mapped.code === "INTERNAL") console.error(`facetwise: ${req.method} ${req.path} failed: ${mapped.message}`);
     if (mapped.code === "DATABASE_UNAVAILABLE") res.set("Retry-After", String(RETRY_AFTER_SECONDS));
     if (res.headersSent) {
       res.end();

@@ -13,5 +13,8 @@ export function asServiceError(error: unknown): FacetwiseError {
     const reason = (error as Error)?.message || (error as { code?: string })?.code || "connection lost";
     return fail("DATABASE_UNAVAILABLE", { reason });
   }
-  return fail("INTERNAL", { reference: randomBytes(4).toString("hex") });
+  const internal = fail("INTERNAL", { reference: randomBytes(4).toString("hex") });
+  // the original stays in the server log under the reference the client sees
+  console.error(`facetwise: ${internal.message}:`, error);
+  return internal;
 }

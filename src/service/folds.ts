@@ -1,24 +1,32 @@
 /**
- * The fold loop. Per page, every foldIntervalSeconds: under the page's advisory transaction lock
- * (one folder across all processes), mature the open picks (converted, or attribution window
- * closed), aggregate them, call the engine's foldCycle — the only place the model's maths runs —
- * and store the new snapshot, allocations, retired list and model version in the same transaction
- * that marks the picks folded. A crash before COMMIT leaves the picks open for the next fold; a
- * crash after leaves them folded: no pick is folded twice or lost.
+ * The fold loop. Per page, every foldIntervalSeconds: mature the open picks (converted, or
+ * attribution window closed), aggregate them, run the engine's foldCycle — the only place the
+ * model's maths runs, on a worker thread so picks keep flowing — and store the new snapshot,
+ * allocations, retired list and model version in the same transaction that marks the picks
+ * folded. A crash before COMMIT leaves the picks open for the next fold; after, they are folded:
+ * no pick is folded twice or lost.
+ *
+ * The loop reads and computes outside any transaction, then commits under the page's advisory
+ * transaction lock after checking that nothing moved: the model version is the one it read and
+ * the picks it marks are exactly the picks it folded (else it discards the result and the next
+ * pass folds again). On PostgreSQL it also holds a session advisory lock while computing, so other
+ * processes skip the page rather than compute the same fold. Page creation and edits fold inside
+ * their own transaction (foldInTransaction).
  */
 import { EventEmitter } from "node:events";
 import type { Pool, PoolClient } from "pg";
-import { deserializeState, foldCycle, initialState, serializeState } from "../model/index.ts";
-import type { RetiredEntry } from "../model/index.ts";
-import { inTransaction } from "../store/repositories/sql.ts";
+import { deserializeState, initialState, serializeState } from "../model/index.ts";
+import type { Design, FoldCycleInput, FoldCycleOutput, ModelState, PageSettings, RetiredEntry } from "../model/index.ts";
+import { checkout, inTransaction, release, type Queryable } from "../store/repositories/sql.ts";
 import { loadPageById } from "../store/repositories/pages.ts";
 import {
-  databaseNow, dueForFold, insertAllocations, insertFoldLog, insertSnapshot, loadRetired, loadSnapshot, lockedPageRow,
-  matureAndAggregate, pruneSnapshots, replaceRetired, segmentKeys, setModelVersion, thinAllocationHistory, touchFold, tryFoldLock,
-  type RetiredRow,
+  databaseNow, dueForFold, foldPageRow, insertAllocations, insertFoldLog, insertSnapshot, loadRetired, loadSnapshot,
+  matureAndAggregate, maturedRows, pruneSnapshots, releaseFoldSessionLock, replaceRetired, segmentKeys, setModelVersion,
+  thinAllocationHistory, touchFold, tryFoldLock, tryFoldSessionLock, type AggregateRow, type RetiredRow,
 } from "../store/repositories/folds.ts";
 import { designOf, servable, settingsOf } from "./definition.ts";
 import { asServiceError } from "./errors.ts";
+import { FoldThread } from "./foldThread.ts";
 
 /** Snapshots kept per page; serving, reporting and resuming need only the newest. */
 const SNAPSHOTS_KEPT = 20;
@@ -27,7 +35,21 @@ export const MODEL_CHANNEL = "facetwise_model";
 
 export type FoldResult =
   | { folded: true; page: string; version: number; picks: number; dropped: number; millis: number }
-  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" | "nothing-new" };
+  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" | "nothing-new" | "raced" };
+
+/** How folds are computed and announced. */
+export interface FoldContext {
+  /** runs the engine's foldCycle (on the fold thread) */
+  compute(input: FoldCycleInput): Promise<FoldCycleOutput>;
+  /** send NOTIFY after each fold (PostgreSQL) */
+  notify: boolean;
+}
+
+/** A fold context with its own fold thread; stop() ends the thread. */
+export function foldContext(notify: boolean): FoldContext & { stop(): Promise<void> } {
+  const thread = new FoldThread();
+  return { notify, compute: (input) => thread.run(input), stop: () => thread.stop() };
+}
 
 /** Deterministic per (page, version), so a fold can be replayed exactly. */
 export function foldSeed(pageId: number, version: number): number {
@@ -52,81 +74,151 @@ function entryToRetired(e: RetiredEntry): RetiredRow {
   };
 }
 
-/**
- * One fold of one page inside the caller's transaction (which must hold, or be about to take, the
- * page's fold lock). `force` folds even when not due — page creation and edits use it to build
- * allocations for the new design right away.
- */
-export async function foldInTransaction(client: PoolClient, pageId: number, force: boolean, notify: boolean): Promise<FoldResult> {
-  if (!(await tryFoldLock(client, pageId))) return { folded: false, page: null, reason: "locked" };
-  const row = await lockedPageRow(client, pageId);
-  if (!row) return { folded: false, page: null, reason: "missing" };
-  const now = await databaseNow(client);
+/** What a fold reads before computing. */
+interface FoldInputs {
+  pageId: number; key: string; status: string; version: number; now: Date;
+  design: Design; settings: PageSettings; state: ModelState; segments: string[]; retired: RetiredEntry[];
+}
+
+type Due = { due: true } | { due: false; reason: "paused" | "not-due" };
+
+async function readInputs(q: Queryable, pageId: number, lock: boolean): Promise<{ inputs: FoldInputs; due: Due } | null> {
+  const row = await foldPageRow(q, pageId, lock);
+  if (!row) return null;
+  const now = await databaseNow(q);
   const settings = settingsOf(row);
-  if (!force) {
-    if (row.status === "paused") return { folded: false, page: row.key, reason: "paused" };
-    if (row.lastFoldAt && row.lastFoldAt.getTime() + settings.foldIntervalSeconds * 1000 > now.getTime()) {
-      return { folded: false, page: row.key, reason: "not-due" };
-    }
-  }
-  const started = performance.now();
-  const page = (await loadPageById(client, pageId))!;
+  const page = (await loadPageById(q, pageId))!;
   const design = designOf(page);
-  const snapshot = row.modelVersion > 0 ? await loadSnapshot(client, pageId, row.modelVersion) : null;
-  const state = snapshot ? deserializeState(snapshot.state) : initialState(design, settings);
-  const version = row.modelVersion + 1;
-  // Paused pages do not learn: their matured picks wait for the first fold after resume.
-  const matured = row.status === "paused" ? [] : await matureAndAggregate(client, pageId, version);
-  // Picks of combinations a page edit removed are marked folded but carry nothing into the model.
-  const rows = matured.filter((r) => servable(design, r.combination));
-  const dropped = matured.reduce((s, r) => s + r.n, 0) - rows.reduce((s, r) => s + r.n, 0);
-  if (!force && matured.length === 0 && settings.halfLifeDays === null) {
-    // Nothing new and no forgetting: the posterior would not move; only re-sample later.
-    await touchFold(client, pageId, now);
-    return { folded: false, page: row.key, reason: "nothing-new" };
-  }
-  const segments = await segmentKeys(client, pageId, settings.maxSegments);
-  const retired = (await loadRetired(client, pageId)).map(retiredToEntry);
-  const result = foldCycle({
-    design, settings, state, rows, now: now.getTime(), segments, retired,
-    seed: foldSeed(pageId, version), frozen: row.status === "frozen",
-  });
-  await insertSnapshot(client, pageId, version, serializeState(result.state), result.summaries, now);
-  await insertAllocations(client, pageId, version, result.allocations as Record<string, unknown>, now);
-  await replaceRetired(client, pageId, result.retired.map(entryToRetired));
+  const snapshot = row.modelVersion > 0 ? await loadSnapshot(q, pageId, row.modelVersion) : null;
+  const due: Due = row.status === "paused" ? { due: false, reason: "paused" }
+    : row.lastFoldAt && row.lastFoldAt.getTime() + settings.foldIntervalSeconds * 1000 > now.getTime() ? { due: false, reason: "not-due" }
+    : { due: true };
+  return {
+    due,
+    inputs: {
+      pageId, key: row.key, status: row.status, version: row.modelVersion, now, design, settings,
+      state: snapshot ? deserializeState(snapshot.state) : initialState(design, settings),
+      segments: await segmentKeys(q, pageId, settings.maxSegments),
+      retired: (await loadRetired(q, pageId)).map(retiredToEntry),
+    },
+  };
+}
+
+function cycleInput(inputs: FoldInputs, rows: AggregateRow[]): FoldCycleInput {
+  return {
+    design: inputs.design, settings: inputs.settings, state: inputs.state,
+    // picks of combinations a page edit removed are marked folded but carry nothing into the model
+    rows: rows.filter((r) => servable(inputs.design, r.combination)),
+    now: inputs.now.getTime(), segments: inputs.segments, retired: inputs.retired,
+    seed: foldSeed(inputs.pageId, inputs.version + 1), frozen: inputs.status === "frozen",
+  };
+}
+
+/** Stores one fold's results as version + 1 (inside the transaction that marked its picks). */
+async function writeResults(client: PoolClient, inputs: FoldInputs, input: FoldCycleInput, output: FoldCycleOutput, matured: AggregateRow[], started: number, notify: boolean): Promise<FoldResult> {
+  const { pageId, now } = inputs;
+  const version = inputs.version + 1;
+  await insertSnapshot(client, pageId, version, serializeState(output.state), output.summaries, now);
+  await insertAllocations(client, pageId, version, output.allocations as Record<string, unknown>, now);
+  await replaceRetired(client, pageId, output.retired.map(entryToRetired));
   await setModelVersion(client, pageId, version, now);
-  const picks = rows.reduce((s, r) => s + r.n, 0);
+  const picks = input.rows.reduce((s, r) => s + r.n, 0);
+  const dropped = matured.reduce((s, r) => s + r.n, 0) - picks;
   const millis = performance.now() - started;
   await insertFoldLog(client, pageId, version, picks, millis, now);
   await pruneSnapshots(client, pageId, version, SNAPSHOTS_KEPT);
   await thinAllocationHistory(client, pageId, version);
-  if (notify) await client.query("SELECT pg_notify($1, $2)", [MODEL_CHANNEL, `${row.key}:${version}`]);
-  return { folded: true, page: row.key, version, picks, dropped, millis };
+  if (notify) await client.query("SELECT pg_notify($1, $2)", [MODEL_CHANNEL, `${inputs.key}:${version}`]);
+  return { folded: true, page: inputs.key, version, picks, dropped, millis };
 }
+
+/**
+ * One fold of one page, always (page creation and edits), inside the caller's transaction, which
+ * holds or takes the page's fold lock. A paused page folds no picks but gets fresh allocations.
+ */
+export async function foldInTransaction(client: PoolClient, pageId: number, context: FoldContext): Promise<FoldResult> {
+  if (!(await tryFoldLock(client, pageId))) return { folded: false, page: null, reason: "locked" };
+  const read = await readInputs(client, pageId, true);
+  if (!read) return { folded: false, page: null, reason: "missing" };
+  const { inputs } = read;
+  const started = performance.now();
+  const matured = inputs.status === "paused" ? [] : await matureAndAggregate(client, pageId, inputs.now, inputs.version + 1);
+  const input = cycleInput(inputs, matured);
+  return writeResults(client, inputs, input, await context.compute(input), matured, started, context.notify);
+}
+
+const sameRows = (a: AggregateRow[], b: AggregateRow[]) =>
+  a.length === b.length && a.every((r, i) => r.segment === b[i].segment && r.combination === b[i].combination && r.n === b[i].n && r.k === b[i].k);
 
 /** Runs folds for due pages on a timer; emits "model" (page key) after each committed fold. */
 export class FoldLoop extends EventEmitter {
   private timer: NodeJS.Timeout | null = null;
-  private running: Promise<void> | null = null;
+  private running: Promise<unknown> | null = null;
   /** On the embedded database advisory locks are shared by all connections: also exclude in-process. */
   private readonly folding = new Set<number>();
+  private readonly thread = foldContext(false);
+  readonly context: FoldContext;
+  private lastError = "";
 
-  constructor(private readonly pool: Pool, private readonly notify: boolean) {
+  /** `crossProcess`: a real PostgreSQL that other server processes may share (locks, NOTIFY). */
+  constructor(private readonly pool: Pool, private readonly crossProcess: boolean) {
     super();
+    this.context = { notify: crossProcess, compute: this.thread.compute };
   }
 
-  /** Folds one page now if it is due (or always, with force); safe to call concurrently. */
+  /** Folds one page if it is due (or always, with force); safe to call concurrently. */
   async foldPage(pageId: number, force = false): Promise<FoldResult> {
     if (this.folding.has(pageId)) return { folded: false, page: null, reason: "locked" };
     this.folding.add(pageId);
+    let session: PoolClient | null = null;
     try {
-      const result = await inTransaction(this.pool, (client) => foldInTransaction(client, pageId, force, this.notify));
+      if (this.crossProcess) {
+        session = await checkout(this.pool);
+        if (!(await tryFoldSessionLock(session, pageId))) return { folded: false, page: null, reason: "locked" };
+      }
+      const result = await this.fold(session ?? this.pool, pageId, force, session);
       if (result.folded) this.emit("model", result.page);
       return result;
     } catch (error) {
       throw asServiceError(error);
     } finally {
+      if (session) {
+        await releaseFoldSessionLock(session, pageId).catch(() => undefined);
+        release(session, false);
+      }
       this.folding.delete(pageId);
+    }
+  }
+
+  private async fold(q: Queryable, pageId: number, force: boolean, session: PoolClient | null): Promise<FoldResult> {
+    const read = await readInputs(q, pageId, false);
+    if (!read) return { folded: false, page: null, reason: "missing" };
+    const { inputs, due } = read;
+    if (!force && !due.due) return { folded: false, page: inputs.key, reason: due.reason };
+    const started = performance.now();
+    const matured = inputs.status === "paused" ? [] : await maturedRows(q, pageId, inputs.now);
+    if (!force && matured.length === 0 && inputs.settings.halfLifeDays === null) {
+      // Nothing new and no forgetting: the posterior would not move.
+      await touchFold(q, pageId, inputs.now);
+      return { folded: false, page: inputs.key, reason: "nothing-new" };
+    }
+    const input = cycleInput(inputs, matured);
+    const output = await this.context.compute(input);
+    const commit = async (client: PoolClient): Promise<FoldResult> => {
+      if (!(await tryFoldLock(client, pageId))) return { folded: false, page: inputs.key, reason: "locked" };
+      const row = await foldPageRow(client, pageId, true);
+      if (!row || row.modelVersion !== inputs.version || (row.status === "paused") !== (inputs.status === "paused")) {
+        return { folded: false, page: inputs.key, reason: "raced" };
+      }
+      const marked = inputs.status === "paused" ? [] : await matureAndAggregate(client, pageId, inputs.now, inputs.version + 1);
+      if (!sameRows(marked, matured)) throw new RacedFold();
+      return writeResults(client, inputs, input, output, matured, started, this.context.notify);
+    };
+    try {
+      return session ? await transactionOn(session, commit) : await inTransaction(this.pool, commit);
+    } catch (error) {
+      if (error instanceof RacedFold) return { folded: false, page: inputs.key, reason: "raced" };
+      throw error;
     }
   }
 
@@ -137,18 +229,26 @@ export class FoldLoop extends EventEmitter {
       try {
         results.push(await this.foldPage(pageId));
       } catch (error) {
-        console.error(`facetwise: fold of page ${pageId} failed: ${(error as Error).message}`);
+        this.complain(`page ${pageId}: ${(error as Error).message}`);
       }
     }
     return results;
+  }
+
+  /** One line per distinct failure, not one per second while the database is down. */
+  private complain(message: string): void {
+    if (message !== this.lastError) console.error(`facetwise: fold loop: ${message}`);
+    this.lastError = message;
   }
 
   start(everyMs = 1000): void {
     if (this.timer) return;
     const loop = () => {
       this.running = this.tick().then(
-        () => undefined,
-        (error: unknown) => console.error(`facetwise: fold loop: ${(error as Error).message}`),
+        (results) => {
+          if (results.some((r) => r.folded)) this.lastError = "";
+        },
+        (error: unknown) => this.complain((error as Error).message),
       ).finally(() => {
         this.running = null;
         if (this.timer) this.timer = setTimeout(loop, everyMs);
@@ -161,5 +261,21 @@ export class FoldLoop extends EventEmitter {
     if (this.timer) clearTimeout(this.timer);
     this.timer = null;
     await this.running;
+    await this.thread.stop();
+  }
+}
+
+/** Picks matured or changed between reading and committing: discard this fold, fold again next pass. */
+class RacedFold extends Error {}
+
+async function transactionOn<T>(client: PoolClient, work: (client: PoolClient) => Promise<T>): Promise<T> {
+  await client.query("BEGIN");
+  try {
+    const result = await work(client);
+    await client.query("COMMIT");
+    return result;
+  } catch (error) {
+    await client.query("ROLLBACK").catch(() => undefined);
+    throw error;
   }
 }

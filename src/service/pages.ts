@@ -14,10 +14,10 @@ import {
   insertPage, listPages, loadPage, pageTotals, replaceDefinition, updateLevelValue, updatePageFields,
   type StoredFactor, type StoredPage,
 } from "../store/repositories/pages.ts";
-import { foldLock, insertSnapshot, loadSnapshot, lockedPageRow, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
+import { foldLock, insertSnapshot, loadSnapshot, foldPageRow, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
 import { ignoreOpenPicks, openCombinations } from "../store/repositories/picks.ts";
 import { baselineKey, designOf, pageView, servable, settingsOf, type PageView } from "./definition.ts";
-import { foldInTransaction } from "./folds.ts";
+import { foldInTransaction, type FoldContext } from "./folds.ts";
 import { newPublicKey } from "./auth.ts";
 import { asServiceError } from "./errors.ts";
 
@@ -52,7 +52,7 @@ const storedFactors = (factors: FactorInput[]): StoredFactor[] =>
   factors.map((f) => ({ name: f.name, levels: f.levels.map((l) => ({ name: l.name, value: l.value ?? "" })) }));
 
 export class PageService extends EventEmitter {
-  constructor(private readonly pool: Pool, private readonly notify: boolean) {
+  constructor(private readonly pool: Pool, private readonly fold: FoldContext) {
     super();
   }
 
@@ -80,7 +80,7 @@ export class PageService extends EventEmitter {
           key: input.key, name: input.name, publicKey: newPublicKey(), status: "active", segmentBy,
           interactions: definition.interactions, settings, baseline: baselineKey(design), factors, exclude: definition.exclude,
         });
-        await foldInTransaction(client, id, true, this.notify);
+        await foldInTransaction(client, id, this.fold);
       });
     } catch (error) {
       if ((error as { code?: string }).code === "23505") throw fail("PAGE_EXISTS", { page: input.key }, "key");
@@ -133,7 +133,7 @@ export class PageService extends EventEmitter {
         let result: Learned = plan.learned;
         if (plan.newDesign) {
           await replaceDefinition(client, page.id, plan.factors, plan.exclude);
-          const row = (await lockedPageRow(client, page.id))!;
+          const row = (await foldPageRow(client, page.id, true))!;
           const snapshot = row.modelVersion > 0 ? await loadSnapshot(client, page.id, row.modelVersion) : null;
           const oldDesign = designOf(page);
           const state = snapshot ? deserializeState(snapshot.state) : initialState(oldDesign, plan.settings);
@@ -149,7 +149,7 @@ export class PageService extends EventEmitter {
           for (const v of patch.levelValues ?? []) await updateLevelValue(client, page.id, v.factor, v.level, v.value);
         }
         // Rebuild allocations now so the edit is served at once (not at the next scheduled fold).
-        if (plan.newDesign || plan.settingsChanged || patch.status !== undefined) await foldInTransaction(client, page.id, true, this.notify);
+        if (plan.newDesign || plan.settingsChanged || patch.status !== undefined) await foldInTransaction(client, page.id, this.fold);
         return result;
       });
       this.emit("changed", key);

@@ -89,7 +89,6 @@ export class WriteBatcher {
         for (const item of batch) await this.commit([item], false);
         return;
       }
-      if (mapped.code === "INTERNAL") console.error(`facetwise: write failed (${mapped.message}):`, error);
       for (const item of batch) item.reject(mapped);
       return;
     } finally {

@@ -93,6 +93,65 @@ forEachDatabase("fold loop", (open, target) => {
       expect({ visitors: overflow.visitors, conversions: overflow.conversions }).toEqual({ visitors: 1, conversions: 1 });
     });
 
+    it("keeps serving picks while a fold computes", async () => {
+      const page = await createPage(h, "busy-page", {});
+      await h.pick(page, "b0", { source: "search" });
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
+      const loop = h.server.services.folds;
+      const compute = loop.context.compute;
+      let during: { status: number; sticky: boolean } | null = null;
+      // a pick made from inside the computation would wait forever if the fold held the database
+      (loop.context as { compute: typeof compute }).compute = async (input) => {
+        const r = await h.pick(page, "b1", { source: "search" });
+        during = { status: r.status, sticky: r.body.sticky };
+        return compute(input);
+      };
+      try {
+        expect(await loop.foldPage(page.id, true)).toMatchObject({ folded: true, picks: 1 });
+      } finally {
+        (loop.context as { compute: typeof compute }).compute = compute;
+      }
+      expect(during).toEqual({ status: 200, sticky: false });
+    });
+
+    it("discards a fold when picks matured or the page changed while it computed, and folds them next pass", async () => {
+      const page = await createPage(h, "raced-page", {});
+      for (const v of ["r0", "r1"]) await h.pick(page, v, { source: "search" });
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1 AND visitor = 'r0'", [page.id]);
+      const loop = h.server.services.folds;
+      const compute = loop.context.compute;
+      const raceWith = async (sideEffect: () => Promise<unknown>) => {
+        let once = true;
+        // (the edit folds too, through the same context: only the loop's fold runs the side effect)
+        (loop.context as { compute: typeof compute }).compute = async (input) => {
+          if (once) {
+            once = false;
+            await sideEffect();
+          }
+          return compute(input);
+        };
+        try {
+          return await loop.foldPage(page.id, true);
+        } finally {
+          (loop.context as { compute: typeof compute }).compute = compute;
+        }
+      };
+      // r1's window is found closed (as of the fold's read time) only after the read
+      const raced = await raceWith(() => h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 hour' WHERE page_id = $1 AND visitor = 'r1'", [page.id]));
+      expect(raced).toMatchObject({ folded: false, reason: "raced" });
+      expect(await states(h.db, page.id)).toEqual({ open: 2 });
+      if (target.kind === "embedded") {
+        // (on PostgreSQL an edit waits for the fold's session lock, so it cannot land mid-fold)
+        const edited = await raceWith(() => h.admin("PATCH", `/pages/${page.key}`, { settings: { explorationFloor: 0.05 } }));
+        expect(edited).toMatchObject({ folded: false, reason: "raced" });
+      }
+      const version = (await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [page.id])).rows[0].model_version;
+      expect(await loop.foldPage(page.id, true)).toMatchObject({ folded: true, version: version + 1 });
+      expect(await states(h.db, page.id)).toEqual({ folded: 2 });
+      // (the edit's own fold may have taken them first) — either way each pick was folded once
+      expect((await foldLogs(h.db.pool, page.id)).reduce((sum, l) => sum + l.picks, 0)).toBe(2);
+    });
+
     it("lets one folder fold a due page at a time", async () => {
       const page = await createPage(h, "one-folder", { foldIntervalSeconds: 1 });
       for (const v of ["p", "q", "r"]) await h.pick(page, v, { source: "search" });

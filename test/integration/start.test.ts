@@ -11,9 +11,11 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 
 const root = new URL("../../", import.meta.url).pathname;
+// One process, as `node --import tsx` runs it: the tsx CLI wrapper relays signals to a child and
+// SIGKILLs it when the child does not acknowledge within 30 ms, which a loaded machine misses.
 
 async function run(args: string[]): Promise<{ code: number | null; stdout: string; stderr: string }> {
-  const child = spawn(process.execPath, [join(root, "node_modules/tsx/dist/cli.mjs"), join(root, "src/cli.ts"), ...args], {
+  const child = spawn(process.execPath, ["--import", "tsx", join(root, "src/cli.ts"), ...args], {
     cwd: root, env: { ...process.env, DATABASE_URL: "" }, stdio: ["ignore", "pipe", "pipe"],
   });
   let stdout = "";
@@ -27,7 +29,7 @@ async function run(args: string[]): Promise<{ code: number | null; stdout: strin
 interface Started { output: () => string; url: string; stop(): Promise<number | null> }
 
 async function start(dataDir: string): Promise<Started> {
-  const child = spawn(process.execPath, [join(root, "node_modules/tsx/dist/cli.mjs"), join(root, "src/cli.ts"), "start", "--port", "0", "--data", dataDir], {
+  const child = spawn(process.execPath, ["--import", "tsx", join(root, "src/cli.ts"), "start", "--port", "0", "--data", dataDir], {
     cwd: root, env: { ...process.env, DATABASE_URL: "", FACETWISE_ADMIN_TOKEN: "" }, stdio: ["ignore", "pipe", "pipe"],
   });
   let output = "";

@@ -7,6 +7,20 @@ import type { Queryable } from "./sql.ts";
 /** First key of the two-int advisory lock; the second is the page id. "FW" + 1. */
 const FOLD_LOCK_NAMESPACE = 0x4657_0001;
 
+/**
+ * Session-level variant, held on one connection while a fold computes outside any transaction,
+ * so other processes skip the page instead of computing the same fold (PostgreSQL only: on the
+ * embedded database every connection shares one session).
+ */
+export async function tryFoldSessionLock(q: Queryable, pageId: number): Promise<boolean> {
+  const { rows } = await q.query<{ locked: boolean }>("SELECT pg_try_advisory_lock($1, $2) AS locked", [FOLD_LOCK_NAMESPACE, pageId]);
+  return rows[0].locked;
+}
+
+export async function releaseFoldSessionLock(q: Queryable, pageId: number): Promise<void> {
+  await q.query("SELECT pg_advisory_unlock($1, $2)", [FOLD_LOCK_NAMESPACE, pageId]);
+}
+
 /** Non-blocking: false when another process (or loop) is folding this page right now. */
 export async function tryFoldLock(q: Queryable, pageId: number): Promise<boolean> {
   const { rows } = await q.query<{ locked: boolean }>("SELECT pg_try_advisory_xact_lock($1, $2) AS locked", [FOLD_LOCK_NAMESPACE, pageId]);
@@ -20,9 +34,10 @@ export async function foldLock(q: Queryable, pageId: number): Promise<void> {
 
 export interface FoldPageRow { id: number; key: string; status: string; settings: Record<string, unknown>; modelVersion: number; lastFoldAt: Date | null }
 
-export async function lockedPageRow(q: Queryable, pageId: number): Promise<FoldPageRow | null> {
+/** The page's fold bookkeeping; `lock` (inside a transaction) holds the row until commit. */
+export async function foldPageRow(q: Queryable, pageId: number, lock: boolean): Promise<FoldPageRow | null> {
   const { rows } = await q.query<{ id: number; key: string; status: string; settings: Record<string, unknown>; model_version: number; last_fold_at: Date | null }>(
-    "SELECT id, key, status, settings, model_version, last_fold_at FROM page WHERE id = $1 FOR UPDATE", [pageId]);
+    `SELECT id, key, status, settings, model_version, last_fold_at FROM page WHERE id = $1${lock ? " FOR UPDATE" : ""}`, [pageId]);
   const r = rows[0];
   return r ? { id: r.id, key: r.key, status: r.status, settings: r.settings, modelVersion: r.model_version, lastFoldAt: r.last_fold_at } : null;
 }
@@ -40,20 +55,38 @@ export async function dueForFold(q: Queryable): Promise<number[]> {
 export interface AggregateRow { segment: string; combination: string; n: number; k: number }
 
 /**
- * Marks every matured open pick (converted, or its window closed) as folded into `version` and
- * returns them aggregated by (segment, combination). Runs inside the fold's transaction, so the
- * marks and the new snapshot commit together or not at all: no pick is ever folded twice.
+ * A pick has matured by `cutoff` when it converted by then or its attribution window closed by
+ * then. Once true this cannot become false (a conversion is only accepted before the window
+ * closes, and is stamped with a later time), so rows read at one moment and marked at a later one
+ * agree unless another fold or a page edit intervened.
  */
-export async function matureAndAggregate(q: Queryable, pageId: number, version: number): Promise<AggregateRow[]> {
+const MATURED = "page_id = $1 AND state = 'open' AND (converted_at <= $2 OR window_ends_at <= $2)";
+
+/** The picks matured by `cutoff`, aggregated by (segment, combination); reads only. */
+export async function maturedRows(q: Queryable, pageId: number, cutoff: Date): Promise<AggregateRow[]> {
+  const { rows } = await q.query<AggregateRow>(
+    `SELECT coalesce(s.key, '*') AS segment, p.combination, count(*)::int AS n, count(p.converted_at)::int AS k
+     FROM (SELECT segment_id, combination, converted_at FROM pick WHERE ${MATURED}) p
+     LEFT JOIN segment s ON s.id = p.segment_id
+     GROUP BY 1, 2 ORDER BY 1, 2`,
+    [pageId, cutoff]);
+  return rows;
+}
+
+/**
+ * Marks the picks matured by `cutoff` as folded into `version` and returns them aggregated like
+ * maturedRows. Runs inside the fold's commit transaction, so the marks and the new snapshot commit
+ * together or not at all: no pick is ever folded twice.
+ */
+export async function matureAndAggregate(q: Queryable, pageId: number, cutoff: Date, version: number): Promise<AggregateRow[]> {
   const { rows } = await q.query<AggregateRow>(
     `WITH matured AS (
-       UPDATE pick SET state = 'folded', folded_version = $2
-       WHERE page_id = $1 AND state = 'open' AND (converted_at IS NOT NULL OR window_ends_at <= now())
+       UPDATE pick SET state = 'folded', folded_version = $3 WHERE ${MATURED}
        RETURNING segment_id, combination, converted_at)
      SELECT coalesce(s.key, '*') AS segment, m.combination, count(*)::int AS n, count(m.converted_at)::int AS k
      FROM matured m LEFT JOIN segment s ON s.id = m.segment_id
      GROUP BY 1, 2 ORDER BY 1, 2`,
-    [pageId, version]);
+    [pageId, cutoff, version]);
   return rows;
 }
 
