@@ -90,7 +90,8 @@ function parseCsv(text: string): string[][] {
   return rows;
 }
 
-describe.runIf(haveChromium)("admin console in Chromium", () => {
+// a loaded CI machine runs every suite at once: each step gets two minutes, the suite still takes about two
+describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, () => {
   let server: Server;
   let context: BrowserContext;
   let page: Page;

@@ -89,7 +89,7 @@ function segmentDetail(report: Report, seg: SegmentReport, ui: UiState, width: n
     topCard(seg, width),
     allocationCard(report, seg, ui, width),
     effectsCard(seg, ui, width),
-    crossCheckCard(seg, ui),
+    crossCheckCard(seg),
   );
 }
 
@@ -294,7 +294,7 @@ function effectsCard(seg: SegmentReport, ui: UiState, width: number): HTMLElemen
   );
 }
 
-function crossCheckCard(seg: SegmentReport, ui: UiState): HTMLElement {
+function crossCheckCard(seg: SegmentReport): HTMLElement {
   const c = seg.crossCheck;
   if (!c) {
     return h("section", { class: "panel", "aria-labelledby": "cc-title" }, h("h3", { id: "cc-title" }, "Naive cross-check"),
@@ -316,8 +316,6 @@ function crossCheckCard(seg: SegmentReport, ui: UiState): HTMLElement {
       h("div", null, h("dt", null, "Two-proportion z-test"), h("dd", null, `z = ${c.zTest.z.toFixed(2)}, p ${pValue(c.zTest.pValue)}`)),
       h("div", null, h("dt", null, "Fisher exact test"), h("dd", null, `p ${pValue(c.fisher.twoSided)} (two-sided)`)),
     ),
-    panelDetails(ui, "cc-help", "Why these tests are only a cross-check",
-      h("p", null, "These tests assume every visitor had a fixed chance of seeing each combination. facetwise moved traffic toward the leader as it learned, so the leader's sample is larger and was gathered when it looked good; the p-values and intervals above are therefore optimistic. Read the model's figures above for decisions and this box as a sanity check.")),
   );
 }
 
