@@ -268,6 +268,27 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     await shot("new-page-results-1280");
   });
 
+  it("edits the running page, saying before and after what happens to what was learned", async () => {
+    await page.click("role=tab[name='Manage']");
+    await page.click("text=+ Add a level to cta");
+    await page.fill('input[aria-label="New level name for cta"]', "chat");
+    await page.fill('input[aria-label="New level value for cta"]', "#5b5f97");
+    await expect.poll(() => page.textContent(".consequences")).toContain("everything learned so far is kept");
+    await expect.poll(() => page.textContent(".manage .count")).toBe("After these changes: 3 factors · 18 combinations · 2 excluded");
+    await page.click("text=Apply changes");
+    const learned = page.locator(".learned");
+    await learned.waitFor();
+    const account = (await learned.textContent()) ?? "";
+    expect(account).toMatch(/cta=chat/); // the server names the new coefficients it starts from the prior
+    await page.click("button:has-text('Pause')");
+    await expect.poll(() => page.textContent(".page-title .badge")).toContain("Paused");
+    await page.click("button:has-text('Resume learning')");
+    await expect.poll(() => page.textContent(".page-title .badge")).toContain("Learning");
+    const pageNow = await api<{ factors: { name: string; levels: { name: string }[] }[]; status: string }>("GET", "/pages/winter-tyres");
+    expect(pageNow.status).toBe("active");
+    expect(pageNow.factors[2].levels.map((l) => l.name)).toEqual(["book", "call", "chat"]);
+  });
+
   it("streams demo traffic on the demo page until leaders and a retired combination appear", async () => {
     await page.goto(`${server.url}/#/p/bike-repair-demo`);
     await page.selectOption("#demo-visitors", "2000");
