@@ -103,6 +103,9 @@ function leaderCard(seg: SegmentReport): HTMLElement {
     "div",
     { class: "panel leader-card", "data-testid": "leader" },
     h("h3", null, "Leader"),
+    seg.folded === 0
+      ? h("p", { class: "note" }, "No visits are in the model yet, so this leader and the figures below are only its starting assumptions, not evidence.")
+      : null,
     combinationLevels(leader),
     h(
       "dl",
