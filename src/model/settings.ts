@@ -6,8 +6,9 @@
  *
  * Prior scales are "common practice, no source" (DESIGN.md "Priors matter more than anything"):
  * one page element rarely moves conversion by more than ±0.5 log-odds, interactions are smaller,
- * and segments differ by less again; the intercept prior N(−3, 2²) covers baseline rates from
- * about 0.1% to 50% within ±2 sd.
+ * and segments differ by less again (segmentSpread); the intercept prior N(−3, 2²) covers baseline
+ * rates from about 0.1% to 50% within ±2 sd. Traffic sources differ most in their overall level,
+ * so a segment's intercept may deviate more (segmentInterceptSpread, sd 1 ≈ a factor 2.7 in odds).
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
@@ -26,6 +27,7 @@ export const settingsSchema = z.strictObject({
   retireAfterFolds: z.number().int().min(1).default(3),
   halfLifeDays: z.number().positive().nullable().default(null),
   segmentSpread: z.number().min(0).max(10).default(0.25),
+  segmentInterceptSpread: z.number().min(0).max(10).default(1),
   priorInterceptMean: z.number().min(-30).max(30).default(-3),
   priorInterceptScale: z.number().positive().max(100).default(2),
   priorMainScale: z.number().positive().max(100).default(0.5),
