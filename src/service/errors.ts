@@ -7,9 +7,12 @@ import { randomBytes } from "node:crypto";
 import { fail, FacetwiseError } from "../errors.ts";
 import { isConnectionError } from "../store/database.ts";
 
+/** node-postgres's own words for a connection that died under a query. */
+const DEAD_CLIENT = /Client has encountered a connection error and is not queryable|Client was closed and is not queryable|Connection terminated/;
+
 export function asServiceError(error: unknown): FacetwiseError {
   if (error instanceof FacetwiseError) return error;
-  if (isConnectionError(error)) {
+  if (isConnectionError(error) || DEAD_CLIENT.test((error as Error)?.message ?? "")) {
     const reason = (error as Error)?.message || (error as { code?: string })?.code || "connection lost";
     return fail("DATABASE_UNAVAILABLE", { reason });
   }

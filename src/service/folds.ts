@@ -183,8 +183,8 @@ export class FoldLoop extends EventEmitter {
       throw asServiceError(error);
     } finally {
       if (session) {
-        await releaseFoldSessionLock(session, pageId).catch(() => undefined);
-        release(session, false);
+        const unlocked = await releaseFoldSessionLock(session, pageId).then(() => true, () => false);
+        release(session, !unlocked);
       }
       this.folding.delete(pageId);
     }

@@ -39,8 +39,9 @@ export async function checkout(pool: Pool): Promise<PoolClient> {
   return client;
 }
 
+/** Returns a connection to the pool; a broken one is discarded and keeps its listener while it dies. */
 export function release(client: PoolClient, broken: boolean): void {
-  client.off("error", ignore);
+  if (!broken) client.off("error", ignore);
   client.release(broken || undefined);
 }
 
