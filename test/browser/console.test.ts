@@ -116,6 +116,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     await page.screenshot({ path: join(shots, `console-${name}.png`) });
     await page.setViewportSize({ width: 1280, height: 900 });
   };
+  /** The demo page's integration snippet, as the console shows it for copying. */
+  let snippet = "";
   /** The token must never appear in an address the console navigates to. */
   const visited: string[] = [];
 
@@ -359,7 +361,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
       for (const seg of json.segments) expect(byCsv[seg.segment]).toBe(seg.combination);
       break;
     }
-    expect(await page.textContent(".snippet code")).toContain("X-Page-Key");
+    snippet = (await page.textContent(".snippet code")) ?? "";
+    expect(snippet).toContain("X-Page-Key");
     await shot("export-1280");
   });
 
@@ -383,5 +386,20 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(await page.evaluate(() => sessionStorage.length + localStorage.length)).toBe(0);
     expect(visited.length).toBeGreaterThan(0);
     for (const url of visited) expect(url).not.toContain(server.token);
+  });
+
+  it("the copied snippet picks on load, renders the level values and reports the conversion", async () => {
+    const demo = await api<{ factors: { name: string; levels: { name: string; value?: string }[] }[] }>("GET", "/pages/bike-repair-demo");
+    const headlines = demo.factors.find((f) => f.name === "headline")?.levels.map((l) => l.value ?? l.name) ?? [];
+    expect(headlines.length).toBeGreaterThan(1);
+    // a landing page on the server's own origin, with the snippet pasted as the console shows it
+    await page.setContent(`<h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a>${snippet}`);
+    await page.waitForFunction(() => document.documentElement.classList.contains("facets-ready"));
+    expect(headlines).toContain(await page.textContent("h1"));
+    const status = await page.evaluate(async () => {
+      const response = await (window as unknown as { facetwiseConvert(id: string): Promise<Response> }).facetwiseConvert("order-1");
+      return response.status;
+    });
+    expect(status).toBe(202);
   });
 });

@@ -41,6 +41,8 @@ export function renderPageView(main: HTMLElement, route: Route): View {
   let timer = 0;
   let disposed = false;
   let fastUntil = 0;
+  /** Counts the user's own changes (Manage), so a poll that raced one is discarded. */
+  let changes = 0;
   const ui: UiState = { segment: null, open: new Set() };
 
   const title = h("h1", null, "…");
@@ -134,6 +136,7 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       // survive tab switches; never re-drawn under the user's typing
       manageElement ??= renderManage(page, (updated) => {
           page = updated;
+          changes += 1;
           if (report) report.status = updated.status;
           setFactorOrder(updated.factors.map((f) => f.name));
           drawHead();
@@ -167,12 +170,18 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       schedule(SLOW_POLL_MS);
       return;
     }
+    const startedAt = changes;
     try {
       const [p, r] = await Promise.all([
         api<Page>("GET", `/pages/${encodeURIComponent(key)}`),
         api<Report>("GET", `/pages/${encodeURIComponent(key)}/report`),
       ]);
       if (disposed) return;
+      // figures fetched before the user's own change landed are stale: fetch again at once
+      if (startedAt !== changes) {
+        schedule(0);
+        return;
+      }
       const firstLoad = page === null;
       page = p;
       report = r;
