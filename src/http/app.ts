@@ -62,6 +62,11 @@ export function createApp(services: Services, options: AppOptions = {}): express
     const body = parse(outcomeSchema, req.body);
     res.status(202).json(await services.outcomes.record(key, publicKeyOf(req), body));
   });
+  app.use("/api", (_req, res, next) => {
+    // answers depend on live state and may carry keys: never cached
+    res.set("Cache-Control", "no-store");
+    next();
+  });
   app.use("/api/v1", (req, res, next) => {
     // route public paths (incl. their CORS preflight) to the public router only
     if (/^\/pages\/[^/]+\/(picks|outcomes)\/?$/.test(req.path)) return publicApi(req, res, next);
