@@ -3,7 +3,7 @@
  * segment a visitor's context falls in, a combination's levels with their values, and the page
  * object the API returns (shape in the contract, "Report JSON shape").
  */
-import { buildDesign, combinationKey, parseCombinationKey, isAllowed, parseSettings } from "../model/index.ts";
+import { buildDesign, combinationKey, parseCombinationKey, isAllowed, parseSettings, settingsSchema } from "../model/index.ts";
 import type { Design, PageDefinition, PageSettings } from "../model/index.ts";
 import type { StoredPage, PageTotals } from "../store/repositories/pages.ts";
 
@@ -22,8 +22,14 @@ export function designOf(page: Pick<StoredPage, "factors" | "exclude" | "interac
   return buildDesign(definitionOf(page));
 }
 
+/**
+ * A stored page's settings, resolved. Names this version no longer knows are dropped (a setting
+ * renamed or removed in an upgrade must not make existing pages unreadable); new ones take their
+ * defaults.
+ */
 export function settingsOf(page: Pick<StoredPage, "settings">): PageSettings {
-  return parseSettings(page.settings);
+  const known = Object.entries(page.settings).filter(([name]) => name in settingsSchema.shape);
+  return parseSettings(Object.fromEntries(known));
 }
 
 export interface SegmentOf { key: string; context: Record<string, string> }

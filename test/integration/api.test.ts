@@ -244,6 +244,16 @@ forEachDatabase("API routes", (open) => {
     });
   });
 
+  it("still reads a page whose stored settings name a setting this version does not know", async () => {
+    // as after an upgrade that renamed a setting: the stored name is dropped, the rest is kept
+    await h.db.pool.query("UPDATE page SET settings = settings || '{\"retiredSettingName\": 3}'::jsonb WHERE key = $1", [page.key]);
+    const r = await h.admin("GET", `/pages/${page.key}`);
+    expect(r.status).toBe(200);
+    expect(r.body.settings).not.toHaveProperty("retiredSettingName");
+    expect(r.body.settings.explorationFloor).toBe(0.1);
+    expect((await h.pick(page, "after-upgrade", { source: "search" })).status).toBe(200);
+  });
+
   it("streams demo traffic on the demo page only", async () => {
     const other = await h.admin("POST", `/pages/${page.key}/demo-traffic`, { visitors: 10 });
     expect(other.status).toBe(409);
