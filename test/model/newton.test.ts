@@ -31,11 +31,11 @@ describe("laplaceFit", () => {
     const rows = covariateRows(temps.map((t, i) => [t, 1, distress[i]]));
     const prior = { precision: Float64Array.from([1e-10, 0, 0, 1e-10]), mean: new Float64Array(2) };
     const fit = laplaceFit(prior, 2, rows);
-    // MLE intercept 15.0429 and slope −0.2322 per °F (from memory; the values reported for this
-    // fit in e.g. Agresti, An Introduction to Categorical Data Analysis, 2nd ed. 2007, §5.1 style analyses).
+    // MLE of the binary model: intercept 15.0429, slope −0.2322 per °F, standard errors 7.379 and
+    // 0.1082 — from memory (the usual glm output for these 23 launches; the issue quotes 15.04 and −0.232).
     expect(fit.mode[0]).toBeCloseTo(15.0429, 2);
     expect(fit.mode[1]).toBeCloseTo(-0.2322, 3);
-    // Standard errors 7.379 and 0.1082 (from memory, same fit) = sqrt(diag(inverse Fisher information)).
+    // Standard errors = √diag(inverse Fisher information) at the MLE.
     const cov = choleskyInverse(fit.choleskyFactor, 2);
     expect(Math.sqrt(cov[0])).toBeCloseTo(7.379, 1);
     expect(Math.sqrt(cov[3])).toBeCloseTo(0.1082, 3);
