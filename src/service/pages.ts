@@ -211,10 +211,11 @@ function planEdit(page: StoredPage, patch: PagePatch): EditPlan {
   const settings = patch.settings ? parseSettings({ ...oldSettings, ...patch.settings }) : oldSettings;
   const settingsChanged = JSON.stringify(settings) !== JSON.stringify(oldSettings);
   const newDesign = structural ? designOf({ factors, exclude, interactions }) : null;
-  return { factors, exclude, interactions, settings, settingsChanged, newDesign, learned: describe(page, patch, settingsChanged, newDesign) };
+  return { factors, exclude, interactions, settings, settingsChanged, newDesign, learned: explainEdit(page, patch, settingsChanged, newDesign) };
 }
 
-function describe(page: StoredPage, patch: PagePatch, settingsChanged: boolean, newDesign: Design | null): Learned {
+/** What an edit does to what was learned, in words for the PATCH response. */
+function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolean, newDesign: Design | null): Learned {
   const none: Learned = { action: "unchanged", message: "Nothing that affects learning changed.", keptFeatures: 0, droppedFeatures: [], addedFeatures: [], droppedOpenPicks: 0 };
   const oldNames = designOf(page).featureNames;
   if (newDesign) {
