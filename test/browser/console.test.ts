@@ -297,7 +297,7 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     await page.click("text=Send demo visitors");
     await expect.poll(() => page.textContent(".demo [role=status]")).toMatch(/Sending 2,000 visitors/);
     await page.waitForSelector("[data-testid=leader]", { timeout: 60_000 });
-    await page.waitForSelector(".tab .count-pill", { timeout: 90_000 });
+    await page.waitForSelector("#tab-retired .count-pill:not([hidden])", { timeout: 90_000 });
     await shot("demo-results-1280");
     await readmeShot("results", ".tabs");
     await page.click("role=tab[name=/Retired/]");

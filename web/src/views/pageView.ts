@@ -73,37 +73,48 @@ export function renderPageView(main: HTMLElement, route: Route): View {
     panel,
   );
 
-  function drawTabs(): void {
-    const retiredN = report ? retiredCount(report) : 0;
-    replace(
-      tabBar,
-      tabs.map((t) =>
-        h(
-          "a",
-          {
-            href: pageHref(key, t.id),
-            role: "tab",
-            id: `tab-${t.id}`,
-            "aria-selected": String(t.id === tab),
-            "aria-controls": "tab-panel",
-            tabindex: t.id === tab ? "0" : "-1",
-            class: t.id === tab ? "tab current" : "tab",
-            onkeydown: (event: Event) => {
-              const e = event as KeyboardEvent;
-              const i = tabs.findIndex((x) => x.id === t.id);
-              const j = e.key === "ArrowRight" ? i + 1 : e.key === "ArrowLeft" ? i - 1 : null;
-              if (j === null) return;
-              e.preventDefault();
-              const next = tabs[(j + tabs.length) % tabs.length];
-              location.hash = pageHref(key, next.id);
-              setTimeout(() => document.getElementById(`tab-${next.id}`)?.focus(), 0);
-            },
-          },
-          t.label,
-          t.id === "retired" && retiredN > 0 ? h("span", { class: "count-pill" }, String(retiredN)) : null,
-        ),
-      ),
+  // the tab links are built once and updated in place, so a refresh never takes keyboard focus off them
+  const pills = new Map<TabId, HTMLElement>();
+  const tabLinks = tabs.map((t) => {
+    const pill = h("span", { class: "count-pill", hidden: true });
+    pills.set(t.id, pill);
+    return h(
+      "a",
+      {
+        href: pageHref(key, t.id),
+        role: "tab",
+        id: `tab-${t.id}`,
+        "aria-controls": "tab-panel",
+        "data-tab": t.id,
+        onkeydown: (event: Event) => {
+          const e = event as KeyboardEvent;
+          const i = tabs.findIndex((x) => x.id === t.id);
+          const j = e.key === "ArrowRight" ? i + 1 : e.key === "ArrowLeft" ? i - 1 : null;
+          if (j === null) return;
+          e.preventDefault();
+          const next = tabs[(j + tabs.length) % tabs.length];
+          location.hash = pageHref(key, next.id);
+          document.getElementById(`tab-${next.id}`)?.focus();
+        },
+      },
+      t.label,
+      pill,
     );
+  });
+  replace(tabBar, tabLinks);
+
+  function drawTabs(): void {
+    for (const link of tabLinks) {
+      const current = link.dataset.tab === tab;
+      link.setAttribute("aria-selected", String(current));
+      link.tabIndex = current ? 0 : -1;
+      link.classList.toggle("current", current);
+      link.classList.add("tab");
+    }
+    const retiredN = report ? retiredCount(report) : 0;
+    const pill = pills.get("retired") as HTMLElement;
+    pill.hidden = retiredN === 0;
+    pill.textContent = String(retiredN);
     panel.id = "tab-panel";
     panel.setAttribute("aria-labelledby", `tab-${tab}`);
   }
@@ -135,11 +146,11 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       // a form: built once per page view and kept while other tabs are shown, so unsaved edits
       // survive tab switches; never re-drawn under the user's typing
       manageElement ??= renderManage(page, (updated) => {
-          page = updated;
-          changes += 1;
-          if (report) report.status = updated.status;
-          setFactorOrder(updated.factors.map((f) => f.name));
-          drawHead();
+        page = updated;
+        changes += 1;
+        if (report) report.status = updated.status;
+        setFactorOrder(updated.factors.map((f) => f.name));
+        drawHead();
       });
       if (panel.firstChild !== manageElement) replace(panel, manageElement);
       return;
