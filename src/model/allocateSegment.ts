@@ -11,6 +11,7 @@ import { combinationKey } from "./combinationKey.ts";
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
 import { sigmoid } from "./logistic.ts";
+import { quantileInPlace } from "./quantile.ts";
 import { updateRetirement, type RetiredEntry } from "./retirement.ts";
 import type { Rng } from "./rng.ts";
 import { drawSamples } from "./sampling.ts";
@@ -90,13 +91,18 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     const meanScore = Float64Array.from(table.combos, meanScoreOf);
     cand = { keys: table.keys, combos: table.combos, probabilityBest, thompson: probabilityBest, eligible, bestScore: scan.bestScore, meanScore };
     order = rank(cand);
+    // Retirement needs the upper bound only of combinations that could be (or are) retired.
+    const upper = new Float64Array(table.keys.length).fill(Infinity);
+    table.keys.forEach((key, i) => {
+      if (probabilityBest[i] < settings.retireProbability || input.active.has(key)) upper[i] = sigmoid(quantileInPlace(scoresFor(table.combos[i]), 0.975));
+    });
     const update = updateRetirement({
       segment,
       keys: table.keys,
       probabilityBest,
-      upper: scan.upperLogit.map(sigmoid),
+      upper,
       leader: order[0],
-      leaderLower: sigmoid(scan.lowerLogit[order[0]]),
+      leaderLower: sigmoid(quantileInPlace(scoresFor(table.combos[order[0]]), 0.025)),
       counters: input.counters,
       active: input.active,
       settings,

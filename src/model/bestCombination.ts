@@ -14,7 +14,6 @@
 import { allowedCombinations, matchesNoRule, sampleAllowed, type Space } from "./allowed.ts";
 import { combinationKey } from "./combinationKey.ts";
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
-import { quantileInPlace } from "./quantile.ts";
 import type { Rng } from "./rng.ts";
 
 /** Random starts per sample in addition to the posterior-mean optimum. */
@@ -61,45 +60,41 @@ export interface EnumeratedScan {
   countEligible: Float64Array;
   /** Each sample's best linear predictor among all allowed. */
   bestScore: Float64Array;
-  /** 2.5% and 97.5% sample quantiles of each combination's linear predictor. */
-  lowerLogit: Float64Array;
-  upperLogit: Float64Array;
 }
 
-/** Scores every allowed combination for every sample (combination-major, so quantiles come free). */
+/**
+ * Scores every allowed combination for every sample (sample-major: one sample's coefficients stay
+ * in cache while the combination table streams past).
+ */
 export function scanEnumerated(table: ComboTable, samples: Float64Array, count: number, stride: number, eligible: Uint8Array): EnumeratedScan {
   const n = table.combos.length;
+  const { m, idx } = table;
   const countAll = new Float64Array(n);
   const countEligible = new Float64Array(n);
-  const lowerLogit = new Float64Array(n);
-  const upperLogit = new Float64Array(n);
-  const bestScore = new Float64Array(count).fill(-Infinity);
-  const bestAll = new Int32Array(count).fill(-1);
-  const bestEligScore = new Float64Array(count).fill(-Infinity);
-  const bestElig = new Int32Array(count).fill(-1);
-  const scores = new Float64Array(count);
-  for (let c = 0; c < n; c++) {
-    scoresOf(table.idx, c * table.m, table.m, samples, count, stride, scores);
-    const ok = eligible[c] === 1;
-    for (let s = 0; s < count; s++) {
-      const v = scores[s];
-      if (v > bestScore[s]) {
-        bestScore[s] = v;
-        bestAll[s] = c;
+  const bestScore = new Float64Array(count);
+  for (let s = 0; s < count; s++) {
+    const row = s * stride;
+    let best = -Infinity;
+    let bestAt = 0;
+    let bestEligible = -Infinity;
+    let bestEligibleAt = -1;
+    for (let c = 0, a0 = 0; c < n; c++, a0 += m) {
+      let acc = 0;
+      for (let a = a0; a < a0 + m; a++) acc += samples[row + idx[a]];
+      if (acc > best) {
+        best = acc;
+        bestAt = c;
       }
-      if (ok && v > bestEligScore[s]) {
-        bestEligScore[s] = v;
-        bestElig[s] = c;
+      if (acc > bestEligible && eligible[c] === 1) {
+        bestEligible = acc;
+        bestEligibleAt = c;
       }
     }
-    lowerLogit[c] = quantileInPlace(scores, 0.025);
-    upperLogit[c] = quantileInPlace(scores, 0.975);
+    bestScore[s] = best;
+    countAll[bestAt]++;
+    if (bestEligibleAt >= 0) countEligible[bestEligibleAt]++;
   }
-  for (let s = 0; s < count; s++) {
-    countAll[bestAll[s]]++;
-    if (bestElig[s] >= 0) countEligible[bestElig[s]]++;
-  }
-  return { countAll, countEligible, bestScore, lowerLogit, upperLogit };
+  return { countAll, countEligible, bestScore };
 }
 
 interface FactorLinks {
