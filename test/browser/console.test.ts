@@ -335,6 +335,10 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(page.url()).toContain("/retired");
     await page.keyboard.press("ArrowLeft");
     await expect.poll(() => page.evaluate(() => document.activeElement?.id)).toBe("tab-results");
+    // a live refresh leaves keyboard focus where it was
+    await page.waitForResponse((r) => r.url().endsWith("/report"), { timeout: 15_000 });
+    await page.waitForTimeout(200);
+    expect(await page.evaluate(() => document.activeElement?.id)).toBe("tab-results");
     const second = page.locator("table.overview tbody tr:nth-child(2) button");
     const name = (await second.textContent()) ?? "";
     await second.focus();

@@ -26,6 +26,7 @@ const newLevel = (): DraftLevel => ({ id: uid("l"), name: "", value: "" });
 const newFactor = (): DraftFactor => ({ id: uid("f"), name: "", levels: [newLevel(), newLevel()] });
 
 export function renderEditor(main: HTMLElement): View {
+  document.title = "New page · facetwise";
   const draft: Draft = { factors: [newFactor()], rules: [], allPairs: true, pairs: new Set() };
   let checkTimer = 0;
   let checkSeq = 0;

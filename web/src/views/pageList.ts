@@ -7,6 +7,7 @@ import type { Page } from "../types.ts";
 import { statusBadge } from "./parts.ts";
 
 export function renderPageList(main: HTMLElement): View {
+  document.title = "Pages · facetwise";
   const list = h("div", { class: "page-list", "aria-busy": "true" }, h("p", { class: "hint" }, "Loading pages…"));
   replace(
     main,

@@ -5,6 +5,7 @@ import { saveToken } from "../session.ts";
 import { announce, type View } from "../shell.ts";
 
 export function renderSignIn(main: HTMLElement, onSignedIn: () => void): View {
+  document.title = "Sign in · facetwise";
   const token = h("input", {
     id: "token",
     name: "token",
