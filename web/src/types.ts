@@ -77,7 +77,12 @@ export interface RetiredReport {
   reinstateReason: string | null;
 }
 
-export interface Estimate { estimate: number; lower: number; upper: number }
+export interface Estimate { estimate: number; lower: number; upper: number; method?: string }
+
+export interface Calibration {
+  brier: number;
+  buckets: { lower: number; upper: number; count: number; predicted: number | null; observed: number | null }[];
+}
 
 export interface CrossCheck {
   leader: { visitors: number; conversions: number };
@@ -104,6 +109,7 @@ export interface SegmentReport {
   effects: FactorEffect[];
   retired: RetiredReport[];
   crossCheck: CrossCheck | null;
+  calibration: Calibration | null;
   allocation: Record<string, number>;
 }
 

@@ -90,6 +90,7 @@ function segmentDetail(report: Report, seg: SegmentReport, ui: UiState, width: n
     allocationCard(report, seg, ui, width),
     effectsCard(seg, ui, width),
     crossCheckCard(seg),
+    calibrationCard(seg, ui),
   );
 }
 
@@ -319,6 +320,34 @@ function crossCheckCard(seg: SegmentReport): HTMLElement {
       h("div", null, h("dt", null, "Two-proportion z-test"), h("dd", null, `z = ${c.zTest.z.toFixed(2)}, p ${pValue(c.zTest.pValue)}`)),
       h("div", null, h("dt", null, "Fisher exact test"), h("dd", null, `p ${pValue(c.fisher.twoSided)} (two-sided)`)),
     ),
+    lift.absolute.method || lift.relative.method
+      ? h("p", { class: "hint" }, `Intervals: ${[lift.absolute.method, lift.relative.method].filter(Boolean).join("; ")}.`)
+      : null,
+  );
+}
+
+/** How well predicted rates matched what happened, for visits already in the model. */
+function calibrationCard(seg: SegmentReport, ui: UiState): HTMLElement | null {
+  const c = seg.calibration;
+  if (!c || c.buckets.every((b) => b.count === 0)) return null;
+  const rows = c.buckets.filter((b) => b.count > 0).map((b) =>
+    h("tr", null,
+      h("th", { scope: "row", class: "nowrap" }, `${pct(b.lower, 0)} – ${pct(b.upper, 0)}`),
+      h("td", { class: "num", "data-label": "Visits" }, n(b.count)),
+      h("td", { class: "num", "data-label": "Predicted" }, pct(b.predicted)),
+      h("td", { class: "num", "data-label": "Happened" }, pct(b.observed))));
+  return h(
+    "section",
+    { class: "panel", "aria-labelledby": "cal-title" },
+    h("h3", { id: "cal-title" }, "Did the predictions come true?"),
+    h("p", { class: "hint" },
+      `Visits grouped by the conversion rate the model predicted for them, beside the rate that actually happened. Close figures mean the model's rates can be trusted. Brier score ${c.brier.toFixed(4)} (lower is better).`),
+    panelDetails(ui, `calibration:${seg.segment}`, "Show predicted against actual rates",
+      h("div", { class: "table-wrap" }, h("table", { class: "data stack" },
+        h("caption", { class: "visually-hidden" }, "Predicted and actual conversion rates by prediction band"),
+        h("thead", null, h("tr", null, h("th", { scope: "col" }, "Predicted band"), h("th", { scope: "col", class: "num" }, "Visits"),
+          h("th", { scope: "col", class: "num" }, "Predicted"), h("th", { scope: "col", class: "num" }, "Happened"))),
+        h("tbody", null, rows)))),
   );
 }
 
