@@ -48,6 +48,10 @@ export const demoPage: PageInput = {
     attributionWindowHours: 10 / 3600,
     foldIntervalSeconds: 5,
     assignmentHours: 1,
+    // Spokeline's sources want different pages (social riders respond to the rainy-commuter
+    // photo), so segments may stray further from the pooled model than the default allows;
+    // with the default, social visitors would be served the search winner for thousands of visits.
+    segmentSpread: 0.3,
   },
 };
 
