@@ -1,6 +1,12 @@
 /**
- * The fold: matured picks, aggregated into (segment, combination, n, k) rows, update each
- * segment's site. For a segment with current posterior N(μ_cur, P_cur⁻¹) (hierarchy.ts) the
+ * The fold: new trials and new conversions, aggregated into (segment, combination, n, k) rows,
+ * update each segment's site. A pick counts as a trial (n) in the first fold after it is served
+ * and its conversion (k) in the first fold after it is reported, so k may exceed n within one row.
+ * The log-likelihood k·log σ(η) + (n−k)·log(1−σ(η)) = k·η + n·log(1−σ(η)) is linear in (n, k):
+ * summed over folds it equals the full-data likelihood, and its Hessian n·p(1−p)·xxᵀ does not
+ * involve k, so every fold stays a convex problem for any n ≥ 0, k ≥ 0 (Bishop, Pattern
+ * Recognition and Machine Learning, 2006, §4.3.2–4.5: logistic log-likelihood and its Hessian,
+ * Laplace approximation). For a segment with current posterior N(μ_cur, P_cur⁻¹) (hierarchy.ts) the
  * Laplace fit under that prior gives (μ_new, P_new) with P_new = P_cur + D, D = Σ n p(1−p) x xᵀ
  * at the mode (newton.ts); the site then absorbs exactly what the fold added:
  *   Λ_s += P_new − P_cur = D,   η_s += P_new μ_new − P_cur μ_cur = P_cur(μ_new − μ_cur) + D μ_new,
@@ -22,9 +28,9 @@ export interface FoldRow {
   segment: string;
   /** Canonical combination key. */
   combination: string;
-  /** Matured picks. */
+  /** New trials: picks served since the last fold. */
   n: number;
-  /** Of which converted. */
+  /** New conversions reported since the last fold (of picks folded now or earlier; may exceed n). */
   k: number;
 }
 
@@ -51,10 +57,10 @@ export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Si
     const segment = row?.segment;
     if (typeof segment !== "string") throw fail("INVALID_FOLD_ROW", { segment: String(segment), reason: "segment must be a string" }, "segment");
     const { n, k } = row;
-    if (typeof n !== "number" || typeof k !== "number" || !(n >= 0 && k >= 0 && k <= n && n < Infinity)) {
-      throw fail("INVALID_FOLD_ROW", { segment, reason: `need 0 ≤ k ≤ n with finite counts, got n=${n}, k=${k}` }, "n");
+    if (typeof n !== "number" || typeof k !== "number" || !(n >= 0 && k >= 0 && n < Infinity && k < Infinity)) {
+      throw fail("INVALID_FOLD_ROW", { segment, reason: `need finite counts n ≥ 0 and k ≥ 0, got n=${n}, k=${k}` }, "n");
     }
-    if (n === 0) continue;
+    if (n === 0 && k === 0) continue;
     if (segment !== lastSegment || combos === undefined) {
       combos = perSegment.get(segment);
       if (!combos) perSegment.set(segment, (combos = new Map()));

@@ -53,7 +53,9 @@ function negLogPosterior(theta: Float64Array, d: number, p: Float64Array, mu: Fl
   for (let r = 0; r < rows.count; r++) {
     let eta = 0;
     for (let a = r * m, end = a + m; a < end; a++) eta += theta[idx[a]] * x[a];
-    loglik += k[r] * logSigmoid(eta) + (n[r] - k[r]) * logSigmoid(-eta);
+    // = k log σ(η) + (n−k) log(1−σ(η)), written so that rows with k > n (a conversion folded
+    // after its trial) need no special case
+    loglik += k[r] * eta + n[r] * logSigmoid(-eta);
   }
   return 0.5 * prior - loglik;
 }
