@@ -1,10 +1,12 @@
 #!/usr/bin/env node
-// Entry point for the `facetwise` command: runs the TypeScript CLI through tsx.
+// Entry point for the `facetwise` command: runs the TypeScript CLI in a Node process with tsx's
+// loader (not through the tsx wrapper, which relays signals to a child and may kill it before a
+// clean shutdown finishes).
 import { spawnSync } from "node:child_process";
-import { fileURLToPath } from "node:url";
+import { fileURLToPath, pathToFileURL } from "node:url";
 import { dirname, join } from "node:path";
 
 const root = join(dirname(fileURLToPath(import.meta.url)), "..");
-const tsx = join(root, "node_modules", "tsx", "dist", "cli.mjs");
-const r = spawnSync(process.execPath, [tsx, join(root, "src", "cli.ts"), ...process.argv.slice(2)], { stdio: "inherit" });
+const loader = pathToFileURL(join(root, "node_modules", "tsx", "dist", "loader.mjs")).href;
+const r = spawnSync(process.execPath, ["--import", loader, join(root, "src", "cli.ts"), ...process.argv.slice(2)], { stdio: "inherit" });
 process.exit(r.status ?? 1);
