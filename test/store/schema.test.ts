@@ -77,6 +77,7 @@ const fixtures: Record<Prisma.ModelName, Fixture> = {
       convertedAt: when("2026-03-03T11:22:33.444Z"),
       state: "folded",
       foldedVersion: 7,
+      conversionFoldedVersion: INT4_MAX,
     }),
   },
   Assignment: {
