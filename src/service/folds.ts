@@ -1,10 +1,11 @@
 /**
- * The fold loop. Per page, every foldIntervalSeconds: mature the open picks (converted, or
- * attribution window closed), aggregate them, run the engine's foldCycle — the only place the
- * model's maths runs, on a worker thread so picks keep flowing — and store the new snapshot,
- * allocations, retired list and model version in the same transaction that marks the picks
- * folded. A crash before COMMIT leaves the picks open for the next fold; after, they are folded:
- * no pick is folded twice or lost.
+ * The fold loop. Per page, every foldIntervalSeconds: take the new trials (picks served since the
+ * last fold, n) and the new conversions (reported since the last fold, inside their attribution
+ * window, k), aggregate them, run the engine's foldCycle — the only place the model's maths runs,
+ * on a worker thread so picks keep flowing — and store the new snapshot, allocations, retired list
+ * and model version in the same transaction that marks those trials and conversions folded. A
+ * crash before COMMIT leaves them for the next fold; after, they are folded: no trial or
+ * conversion is folded twice or lost.
  *
  * The loop reads and computes outside any transaction, then commits under the page's advisory
  * transaction lock after checking that nothing moved: the model version is the one it read and

@@ -1,5 +1,5 @@
 /**
- * Queries of the fold loop: the per-page advisory lock, maturing picks, snapshots, allocation
+ * Queries of the fold loop: the per-page advisory lock, folding trials and conversions, snapshots, allocation
  * records and the retired list. All of one fold run on the same transaction client.
  */
 import type { Queryable } from "./sql.ts";
@@ -55,18 +55,24 @@ export async function dueForFold(q: Queryable): Promise<number[]> {
 export interface AggregateRow { segment: string; combination: string; n: number; k: number }
 
 /**
- * A pick has matured by `cutoff` when it converted by then or its attribution window closed by
- * then. Once true this cannot become false (a conversion is only accepted before the window
- * closes, and is stamped with a later time), so rows read at one moment and marked at a later one
- * agree unless another fold or a page edit intervened.
+ * What a fold at `cutoff` counts. A pick's trial (n = 1) folds in the first fold after it is
+ * served; its conversion (k = 1) in the first fold after it is reported, once its trial is folded
+ * (in this fold or earlier; never for an ignored pick). Counting outcomes only when they are known
+ * keeps every fold unbiased: the log-likelihood k·η + n·log(1−σ(η)) is linear in k, so the folds
+ * add up to the full-data likelihood (src/model/fold.ts). A conversion is only accepted inside the
+ * attribution window (outcomes.ts) and is stamped with the database clock, so both conditions,
+ * once true, stay true: rows read at one moment and marked at a later one agree unless another
+ * fold or a page edit intervened.
  */
-const MATURED = "page_id = $1 AND state = 'open' AND (converted_at <= $2 OR window_ends_at <= $2)";
+const TRIAL = "(state = 'open' AND created_at <= $2)";
+const CONVERSION = `(converted_at <= $2 AND conversion_folded_version IS NULL AND (state = 'folded' OR ${TRIAL}))`;
 
-/** The picks matured by `cutoff`, aggregated by (segment, combination); reads only. */
+/** The trials and conversions due by `cutoff`, aggregated by (segment, combination); reads only. */
 export async function maturedRows(q: Queryable, pageId: number, cutoff: Date): Promise<AggregateRow[]> {
   const { rows } = await q.query<AggregateRow>(
-    `SELECT coalesce(s.key, '*') AS segment, p.combination, count(*)::int AS n, count(p.converted_at)::int AS k
-     FROM (SELECT segment_id, combination, converted_at FROM pick WHERE ${MATURED}) p
+    `SELECT coalesce(s.key, '*') AS segment, p.combination, count(*) FILTER (WHERE p.trial)::int AS n, count(*) FILTER (WHERE p.conversion)::int AS k
+     FROM (SELECT segment_id, combination, ${TRIAL} AS trial, ${CONVERSION} AS conversion
+           FROM pick WHERE page_id = $1 AND (${TRIAL} OR ${CONVERSION})) p
      LEFT JOIN segment s ON s.id = p.segment_id
      GROUP BY 1, 2 ORDER BY 1, 2`,
     [pageId, cutoff]);
@@ -74,28 +80,41 @@ export async function maturedRows(q: Queryable, pageId: number, cutoff: Date): P
 }
 
 /**
- * Marks the picks matured by `cutoff` as folded into `version` and returns them aggregated like
+ * Marks the trials and conversions due by `cutoff` as folded into `version` (one UPDATE, so a
+ * pick's trial and its conversion can land in the same fold) and returns them aggregated like
  * maturedRows. Runs inside the fold's commit transaction, so the marks and the new snapshot commit
- * together or not at all: no pick is ever folded twice.
+ * together or not at all: no trial or conversion is ever folded twice.
  */
 export async function matureAndAggregate(q: Queryable, pageId: number, cutoff: Date, version: number): Promise<AggregateRow[]> {
   const { rows } = await q.query<AggregateRow>(
     `WITH matured AS (
-       UPDATE pick SET state = 'folded', folded_version = $3 WHERE ${MATURED}
-       RETURNING segment_id, combination, converted_at)
-     SELECT coalesce(s.key, '*') AS segment, m.combination, count(*)::int AS n, count(m.converted_at)::int AS k
+       UPDATE pick SET
+         state = CASE WHEN ${TRIAL} THEN 'folded' ELSE state END,
+         folded_version = CASE WHEN ${TRIAL} THEN $3 ELSE folded_version END,
+         conversion_folded_version = CASE WHEN ${CONVERSION} THEN $3 ELSE conversion_folded_version END
+       WHERE page_id = $1 AND (${TRIAL} OR ${CONVERSION})
+       RETURNING segment_id, combination, folded_version = $3 AS trial, conversion_folded_version IS NOT DISTINCT FROM $3 AS conversion)
+     SELECT coalesce(s.key, '*') AS segment, m.combination, count(*) FILTER (WHERE m.trial)::int AS n, count(*) FILTER (WHERE m.conversion)::int AS k
      FROM matured m LEFT JOIN segment s ON s.id = m.segment_id
      GROUP BY 1, 2 ORDER BY 1, 2`,
     [pageId, cutoff, version]);
   return rows;
 }
 
-/** The aggregated rows a past fold consumed (for audits and the rebuild-from-picks check). */
+/**
+ * The aggregated rows each past fold consumed (for audits and the rebuild-from-picks check): per
+ * version, the trials folded into it and the conversions folded into it.
+ */
 export async function foldedRows(q: Queryable, pageId: number): Promise<(AggregateRow & { version: number })[]> {
   const { rows } = await q.query<AggregateRow & { version: number }>(
-    `SELECT p.folded_version AS version, coalesce(s.key, '*') AS segment, p.combination, count(*)::int AS n, count(p.converted_at)::int AS k
-     FROM pick p LEFT JOIN segment s ON s.id = p.segment_id
-     WHERE p.page_id = $1 AND p.state = 'folded' GROUP BY 1, 2, 3 ORDER BY 1, 2, 3`, [pageId]);
+    `SELECT e.version, coalesce(s.key, '*') AS segment, e.combination, sum(e.n)::int AS n, sum(e.k)::int AS k
+     FROM (SELECT folded_version AS version, segment_id, combination, 1 AS n, 0 AS k
+           FROM pick WHERE page_id = $1 AND state = 'folded'
+           UNION ALL
+           SELECT conversion_folded_version, segment_id, combination, 0, 1
+           FROM pick WHERE page_id = $1 AND conversion_folded_version IS NOT NULL) e
+     LEFT JOIN segment s ON s.id = e.segment_id
+     GROUP BY 1, 2, 3 ORDER BY 1, 2, 3`, [pageId]);
   return rows;
 }
 

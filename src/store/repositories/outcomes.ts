@@ -10,8 +10,9 @@ export type OutcomeResult =
 
 /**
  * Stores one outcome and, if it is the pick's first conversion inside the attribution window,
- * marks the pick converted — in one statement. Writes nothing for an unknown pick. The window is
- * judged by the database clock, the same clock the fold loop uses to mature picks.
+ * marks the pick converted — in one statement, whether or not the pick's trial is already folded
+ * (the fold counts the conversion on its own, once: repositories/folds.ts). Writes nothing for an
+ * unknown pick. The window is judged by the database clock, the same clock the fold loop uses.
  */
 export async function recordOutcome(
   q: Queryable, o: { pageId: number; pick: string; event: string; value: number | null },
@@ -25,7 +26,7 @@ export async function recordOutcome(
      converted AS (
        UPDATE pick SET converted_at = now()
        WHERE id = $2::uuid AND EXISTS (SELECT 1 FROM inserted)
-         AND converted_at IS NULL AND state IN ('open', 'ignored') AND window_ends_at >= now()
+         AND converted_at IS NULL AND window_ends_at >= now()
        RETURNING id)
      SELECT EXISTS (SELECT 1 FROM target) AS found, EXISTS (SELECT 1 FROM inserted) AS inserted,
             EXISTS (SELECT 1 FROM converted) AS converted,

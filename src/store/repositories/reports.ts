@@ -3,15 +3,20 @@ import type { Queryable } from "./sql.ts";
 
 export interface CountRow { segment: string; combination: string; visitors: number; conversions: number; folded: number; foldedConversions: number; pending: number }
 
-/** Served picks per (segment, combination): visitors, conversions inside the window, folded, pending. */
+/**
+ * Served picks per (segment, combination): visitors, conversions inside the window, folded (trials
+ * in the model), the folded conversions, and pending: picks whose trial or conversion the next fold
+ * will count (repositories/folds.ts).
+ */
 export async function pickCounts(q: Queryable, pageId: number): Promise<CountRow[]> {
   const { rows } = await q.query<CountRow>(
     `SELECT coalesce(s.key, '*') AS segment, p.combination,
        count(*)::int AS visitors,
        count(p.converted_at)::int AS conversions,
        (count(*) FILTER (WHERE p.state = 'folded'))::int AS folded,
-       (count(p.converted_at) FILTER (WHERE p.state = 'folded'))::int AS "foldedConversions",
-       (count(*) FILTER (WHERE p.state = 'open' AND p.converted_at IS NULL AND p.window_ends_at > now()))::int AS pending
+       (count(*) FILTER (WHERE p.conversion_folded_version IS NOT NULL))::int AS "foldedConversions",
+       (count(*) FILTER (WHERE p.state = 'open'
+          OR (p.state = 'folded' AND p.converted_at IS NOT NULL AND p.conversion_folded_version IS NULL)))::int AS pending
      FROM pick p LEFT JOIN segment s ON s.id = p.segment_id
      WHERE p.page_id = $1 GROUP BY 1, 2`, [pageId]);
   return rows;
