@@ -25,7 +25,7 @@ export const catalogue = {
   INVALID_ARGUMENT: { status: 400, message: 'Invalid argument "{argument}": {reason}' },
   INVALID_SCENARIO: { status: 400, message: 'Invalid scenario at "{path}": {reason}' },
   INVALID_OPTION: { status: 400, message: "Invalid option {option}: {reason}" },
-  INVALID_REQUEST: { status: 400, message: "Invalid request at \"{field}\": {reason}" },
+  INVALID_REQUEST: { status: 400, message: "{field}: {reason}" },
   MALFORMED_JSON: { status: 400, message: "The request body is not valid JSON: {reason}" },
   BODY_TOO_LARGE: { status: 413, message: "The request body is larger than {limit}; send less" },
   UNAUTHORIZED: { status: 401, message: "{reason}" },

@@ -12,7 +12,7 @@ import type { Services } from "../service/index.ts";
 import { requireAdmin, publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
 import {
-  createPageSchema, definitionSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
+  createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
 } from "./validation.ts";
 
@@ -79,8 +79,8 @@ export function createApp(services: Services, options: AppOptions = {}): express
   admin.get("/session", (_req, res) => {
     res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey });
   });
-  admin.post("/definitions/check", (req, res) => {
-    res.json(services.pages.checkDefinition(parse(definitionSchema, req.body)));
+  admin.post("/definitions/check", async (req, res) => {
+    res.json(await services.pages.checkDefinition(parse(definitionCheckSchema, req.body)));
   });
   admin.post("/pages", async (req, res) => {
     const page = await services.pages.create(parse(createPageSchema, req.body));

@@ -5,6 +5,7 @@
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
+import { reasonOf } from "../service/issues.ts";
 
 const name = z.string().min(1).max(100);
 const text = z.string().max(10_000);
@@ -31,6 +32,9 @@ export const createPageSchema = z.strictObject({
   segmentBy: z.array(z.string().min(1).max(64)).max(5).optional(),
   settings: z.record(z.string(), z.unknown()).optional(),
 });
+
+/** A create body while it is being written: the same schema with key and name optional. */
+export const definitionCheckSchema = createPageSchema.partial({ key: true, name: true });
 
 export const patchPageSchema = z.strictObject({
   name: z.string().min(1).max(200).optional(),
@@ -60,17 +64,17 @@ export const demoTrafficSchema = z.strictObject({
 
 export const exportQuerySchema = z.object({ format: z.enum(["json", "csv"]).default("json") });
 
-/** Parses `input` or throws INVALID_REQUEST naming the first bad field. */
+/** Parses `input` or throws INVALID_REQUEST naming the first bad field and, in words, what to fix. */
 export function parse<T extends z.ZodType>(schema: T, input: unknown, where = "body"): z.output<T> {
   if (input === undefined && where === "body") {
     throw fail("INVALID_REQUEST", { field: "body", reason: "send a JSON object with Content-Type: application/json" }, "body");
   }
-  const result = schema.safeParse(input);
+  const result = schema.safeParse(input, { reportInput: true });
   if (result.success) return result.data;
   const issue = result.error.issues[0];
   let path = issue.path.map(String).join(".");
   if (issue.code === "unrecognized_keys") path = [path, issue.keys[0]].filter(Boolean).join(".");
   const field = path || where;
-  const reason = issue.code === "unrecognized_keys" ? "is not a known field" : issue.message;
-  throw fail("INVALID_REQUEST", { field, reason }, field);
+  // a value checked on its own (a route parameter) is named after where it came from
+  throw fail("INVALID_REQUEST", { field, reason: reasonOf(issue.path.length ? issue : { ...issue, path: [where] }) }, field);
 }

@@ -6,6 +6,8 @@
 import { buildDesign, combinationKey, parseCombinationKey, isAllowed, parseSettings, settingsSchema } from "../model/index.ts";
 import type { Design, PageDefinition, PageSettings } from "../model/index.ts";
 import type { StoredPage, PageTotals } from "../store/repositories/pages.ts";
+import { fail } from "../errors.ts";
+import { reasonOf } from "./issues.ts";
 
 /** The demo page's key; only it accepts POST /demo-traffic. */
 export const DEMO_PAGE_KEY = "bike-repair-demo";
@@ -30,6 +32,20 @@ export function designOf(page: Pick<StoredPage, "factors" | "exclude" | "interac
 export function settingsOf(page: Pick<StoredPage, "settings">): PageSettings {
   const known = Object.entries(page.settings).filter(([name]) => name in settingsSchema.shape);
   return parseSettings(Object.fromEntries(known));
+}
+
+/**
+ * Settings a user sent, checked by the engine's own schema; its complaint is worded like every
+ * other bad input (INVALID_SETTING naming the setting, e.g. "the value must be less than 1").
+ */
+export function settingsFrom(input: Record<string, unknown>): PageSettings {
+  const result = settingsSchema.safeParse(input, { reportInput: true });
+  if (result.success) return result.data;
+  const issue = result.error.issues[0];
+  // an unknown name: the engine's own answer points at the settings table
+  if (issue.code === "unrecognized_keys" || issue.path.length === 0) return parseSettings(input);
+  const name = issue.path.map(String).join(".");
+  throw fail("INVALID_SETTING", { setting: name, reason: reasonOf(issue, "the value") }, name);
 }
 
 export interface SegmentOf { key: string; context: Record<string, string> }
@@ -87,6 +103,6 @@ export function pageView(page: StoredPage, design: Design, totals: PageTotals | 
     dimension: design.dimension, modelVersion: page.modelVersion,
     lastFoldAt: page.lastFoldAt ? page.lastFoldAt.toISOString() : null,
     createdAt: page.createdAt.toISOString(), updatedAt: page.updatedAt.toISOString(),
-    totals: totals ?? { visitors: 0, conversions: 0, segments: 0 },
+    totals: totals ?? { visitors: 0, conversions: 0, segments: 0, settled: 0 },
   };
 }

@@ -6,8 +6,8 @@
  */
 import { EventEmitter } from "node:events";
 import type { Pool } from "pg";
-import { buildDesign, deserializeState, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
-import type { Design, PageDefinition } from "../model/index.ts";
+import { deserializeState, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
+import type { Design } from "../model/index.ts";
 import { fail } from "../errors.ts";
 import { inTransaction } from "../store/repositories/sql.ts";
 import {
@@ -16,7 +16,7 @@ import {
 } from "../store/repositories/pages.ts";
 import { foldLock, insertSnapshot, loadSnapshot, foldPageRow, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
 import { ignoreOpenPicks, openCombinations } from "../store/repositories/picks.ts";
-import { baselineKey, designOf, pageView, servable, settingsOf, type PageView } from "./definition.ts";
+import { baselineKey, designOf, pageView, servable, settingsFrom, settingsOf, type PageView } from "./definition.ts";
 import { foldInTransaction, type FoldContext } from "./folds.ts";
 import { newPublicKey } from "./auth.ts";
 import { asServiceError } from "./errors.ts";
@@ -26,6 +26,13 @@ export interface FactorInput { name: string; levels: LevelInput[] }
 export interface PageInput {
   key: string; name: string; factors: FactorInput[]; exclude?: Record<string, string>[];
   segmentBy?: string[]; interactions?: [string, string][]; settings?: Record<string, unknown>;
+}
+/** A create body while it is being written: what POST /definitions/check accepts. */
+export type PageDraft = Omit<PageInput, "key" | "name"> & Partial<Pick<PageInput, "key" | "name">>;
+export interface DefinitionSummary {
+  factors: { name: string; levels: string[] }[];
+  combinations: { total: number; allowed: number; excluded: number };
+  dimension: number;
 }
 export interface PagePatch {
   name?: string; settings?: Record<string, unknown>; status?: "active" | "paused" | "frozen";
@@ -51,14 +58,34 @@ function checkSegmentBy(segmentBy: string[]): void {
 const storedFactors = (factors: FactorInput[]): StoredFactor[] =>
   factors.map((f) => ({ name: f.name, levels: f.levels.map((l) => ({ name: l.name, value: l.value ?? "" })) }));
 
+/** Everything create() checks before touching the database (settings, segment keys, design). */
+function validatePage(input: PageDraft) {
+  const settings = settingsFrom(input.settings ?? {});
+  const segmentBy = input.segmentBy ?? [];
+  checkSegmentBy(segmentBy);
+  const factors = storedFactors(input.factors);
+  const definition = { factors, exclude: input.exclude ?? [], interactions: input.interactions ?? null };
+  return { settings, segmentBy, factors, definition, design: designOf(definition) };
+}
+
 export class PageService extends EventEmitter {
   constructor(private readonly pool: Pool, private readonly fold: FoldContext) {
     super();
   }
 
-  /** Validates a definition without saving it. */
-  checkDefinition(def: PageDefinition): { factors: { name: string; levels: string[] }[]; combinations: { total: number; allowed: number; excluded: number }; dimension: number } {
-    const design = buildDesign(def);
+  /**
+   * Validates a create body without saving it — the same checks, in the same order, as create()
+   * (key and name may be left out while the user is still typing) — and says what it would build.
+   */
+  async checkDefinition(input: PageDraft): Promise<DefinitionSummary> {
+    const { design } = validatePage(input);
+    if (input.key !== undefined) {
+      try {
+        if (await loadPage(this.pool, input.key)) throw fail("PAGE_EXISTS", { page: input.key }, "key");
+      } catch (error) {
+        throw asServiceError(error);
+      }
+    }
     return {
       factors: design.factors.map((f) => ({ name: f.name, levels: f.levels.slice() })),
       combinations: { total: design.totalCount, allowed: design.allowedCount, excluded: design.excludedCount },
@@ -67,12 +94,7 @@ export class PageService extends EventEmitter {
   }
 
   async create(input: PageInput): Promise<PageView> {
-    const settings = parseSettings(input.settings ?? {});
-    const segmentBy = input.segmentBy ?? [];
-    checkSegmentBy(segmentBy);
-    const factors = storedFactors(input.factors);
-    const definition = { factors, exclude: input.exclude ?? [], interactions: input.interactions ?? null };
-    const design = designOf(definition);
+    const { settings, segmentBy, factors, definition, design } = validatePage(input);
     try {
       await inTransaction(this.pool, async (client) => {
         if (await loadPage(client, input.key)) throw fail("PAGE_EXISTS", { page: input.key }, "key");
@@ -208,7 +230,7 @@ function planEdit(page: StoredPage, patch: PagePatch): EditPlan {
   });
   const structural = Boolean(patch.removeFactors?.length || patch.addFactors?.length || patch.removeLevels?.length || patch.addLevels?.length);
   const oldSettings = settingsOf(page);
-  const settings = patch.settings ? parseSettings({ ...oldSettings, ...patch.settings }) : oldSettings;
+  const settings = patch.settings ? settingsFrom({ ...oldSettings, ...patch.settings }) : oldSettings;
   const settingsChanged = JSON.stringify(settings) !== JSON.stringify(oldSettings);
   const newDesign = structural ? designOf({ factors, exclude, interactions }) : null;
   return { factors, exclude, interactions, settings, settingsChanged, newDesign, learned: explainEdit(page, patch, settingsChanged, newDesign) };

@@ -43,6 +43,14 @@ forEachDatabase("API routes", (open) => {
     expect(await h.count("page")).toBe(0);
   });
 
+  it("checks a whole create body (key, name, segmentBy, settings) without saving it", async () => {
+    const r = await h.admin("POST", "/definitions/check", testPage("unused", { settings: { baselineShare: 0.1 } }));
+    expect(r.status).toBe(200);
+    // the same page as above: 12 combinations, 2 excluded, 10 coefficients
+    expect(r.body).toMatchObject({ combinations: { total: 12, allowed: 10, excluded: 2 }, dimension: 10 });
+    expect(await h.count("page")).toBe(0);
+  });
+
   it("creates a page (201) with its public key, lists and reads it", async () => {
     const created = await h.admin("POST", "/pages", testPage("repair-landing"));
     expect(created.status).toBe(201);
@@ -140,7 +148,6 @@ forEachDatabase("API routes", (open) => {
   });
 
   it("reports per segment and pooled after a fold", async () => {
-    await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second'");
     const pageId = (await h.db.pool.query("SELECT id FROM page WHERE key = $1", [page.key])).rows[0].id;
     const fold = await h.server.services.folds.foldPage(pageId, true);
     expect(fold).toMatchObject({ folded: true, version: 2 });
@@ -162,6 +169,19 @@ forEachDatabase("API routes", (open) => {
     expect(shares).toBeGreaterThan(0.99);
     expect(shares).toBeLessThan(1.0001);
     expect(r.body.allocationHistory["*"].length).toBe(2);
+  });
+
+  it("counts each listed page's settled segments, leaving out the pooled model", async () => {
+    // a leader's probability of being best is at least 1/K among K allowed combinations (here
+    // 1/10), so with settleProbability 0.01 every segment settles at its first fold
+    const created = await h.admin("POST", "/pages", testPage("settles-at-once", { settings: { settleProbability: 0.01 } }));
+    const listed = async () => (await h.admin("GET", "/pages")).body.pages.find((p: { key: string }) => p.key === "settles-at-once").totals;
+    // only the pooled model "*" has a summary yet, and it is not a segment
+    expect(await listed()).toMatchObject({ segments: 0, settled: 0 });
+    for (const [i, source] of ["search", "social", "social"].entries()) await h.pick(created.body, `settle-${i}`, { source });
+    const pageId = (await h.db.pool.query("SELECT id FROM page WHERE key = $1", ["settles-at-once"])).rows[0].id;
+    await h.server.services.folds.foldPage(pageId, true);
+    expect(await listed()).toMatchObject({ segments: 2, settled: 2 });
   });
 
   it("exports JSON and RFC 4180 CSV", async () => {

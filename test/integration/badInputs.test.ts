@@ -19,6 +19,8 @@ interface Case {
   status: number;
   code: string;
   field?: string;
+  /** the whole message, where the wording itself is under test (src/http/issues.ts writes it) */
+  message?: string;
 }
 
 const P = "/api/v1/pages/fixture";
@@ -33,9 +35,9 @@ const cases: Case[] = [
   { name: "no JSON content type", method: "POST", path: "/api/v1/pages", raw: "key=a", headers: { "content-type": "application/x-www-form-urlencoded" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "body" },
   // picks
   { name: "pick: visitor of the wrong type", method: "POST", path: `${P}/picks`, body: { visitor: 42 }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor" },
-  { name: "pick: visitor missing", method: "POST", path: `${P}/picks`, body: { context: { source: "search" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor" },
-  { name: "pick: unknown field", method: "POST", path: `${P}/picks`, body: { visitor: "v", colour: "red" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "colour" },
-  { name: "pick: context value an object", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { source: { a: 1 } } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.source" },
+  { name: "pick: visitor missing", method: "POST", path: `${P}/picks`, body: { context: { source: "search" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor", message: "visitor: the visitor id is missing: send text" },
+  { name: "pick: unknown field", method: "POST", path: `${P}/picks`, body: { visitor: "v", colour: "red" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "colour", message: 'colour: "colour" is not a known field here: remove it or check its spelling' },
+  { name: "pick: context value an object", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { source: { a: 1 } } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.source", message: 'context.source: "source" in the context must be text, a number or true/false, not an object' },
   { name: "pick: unknown page", method: "POST", path: "/api/v1/pages/no-such-page/picks", body: { visitor: "v" }, as: "page", status: 404, code: "UNKNOWN_PAGE" },
   { name: "pick: invalid page key", method: "POST", path: "/api/v1/pages/Bad_Key/picks", body: { visitor: "v" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "key" },
   { name: "pick: no X-Page-Key", method: "POST", path: `${P}/picks`, body: { visitor: "v" }, as: "none", status: 401, code: "UNAUTHORIZED" },
@@ -45,7 +47,7 @@ const cases: Case[] = [
   { name: "outcome: pick id not a UUID", method: "POST", path: `${P}/outcomes`, body: { pick: "abc" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "pick" },
   { name: "outcome: unknown pick", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "e1" }, as: "page", status: 404, code: "UNKNOWN_PICK", field: "pick" },
   { name: "outcome: value not a number", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, value: "12" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "value" },
-  { name: "outcome: empty event id", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "event" },
+  { name: "outcome: empty event id", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "event", message: "event: the event id cannot be empty" },
   // auth on admin routes; the public key never reads reports or definitions
   { name: "admin route without a token", method: "GET", path: "/api/v1/pages", as: "none", status: 401, code: "UNAUTHORIZED" },
   { name: "admin route with a wrong token", method: "GET", path: "/api/v1/pages", headers: { authorization: "Bearer fw_admin_wrong" }, as: "none", status: 401, code: "UNAUTHORIZED" },
@@ -54,28 +56,37 @@ const cases: Case[] = [
   { name: "create a page without a token", method: "POST", path: "/api/v1/pages", body: testPage("sneaky"), as: "none", status: 401, code: "UNAUTHORIZED" },
   // page definitions
   { name: "page key with capitals and spaces", method: "POST", path: "/api/v1/pages", body: { ...testPage("x"), key: "My Page" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "key" },
-  { name: "page without factors", method: "POST", path: "/api/v1/pages", body: { ...testPage("nofactors"), factors: [] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors" },
+  { name: "page without factors", method: "POST", path: "/api/v1/pages", body: { ...testPage("nofactors"), factors: [] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors", message: "factors: add at least 1 factor" },
+  { name: "factor without a name", method: "POST", path: "/api/v1/pages", body: { ...testPage("noname"), factors: [{ name: "", levels: [{ name: "a" }, { name: "b" }] }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors.0.name", message: "factors.0.name: factor 1 needs a name" },
+  { name: "level name too long", method: "POST", path: "/api/v1/pages", body: { ...testPage("longlevel"), factors: [{ name: "title", levels: [{ name: "a" }, { name: "b".repeat(101) }] }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors.0.levels.1.name", message: "factors.0.levels.1.name: the name of level 2 of factor 1 is too long: use at most 100 characters" },
   { name: "exclusion naming an unknown level", method: "POST", path: "/api/v1/pages", body: { ...testPage("badrule"), exclude: [{ photo: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL" },
   { name: "interaction naming an unknown factor", method: "POST", path: "/api/v1/pages", body: { ...testPage("badpair"), interactions: [["title", "colour"]] }, as: "admin", status: 400, code: "UNKNOWN_FACTOR" },
   { name: "duplicate level names", method: "POST", path: "/api/v1/pages", body: { ...testPage("dup"), factors: [{ name: "title", levels: [{ name: "a" }, { name: "a" }] }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
-  { name: "setting out of range", method: "POST", path: "/api/v1/pages", body: { ...testPage("badsetting"), settings: { baselineShare: 1.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "baselineShare" },
+  { name: "setting out of range", method: "POST", path: "/api/v1/pages", body: { ...testPage("badsetting"), settings: { baselineShare: 1.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "baselineShare", message: 'Invalid setting "baselineShare": the value must be at most 1' },
   { name: "unknown setting", method: "POST", path: "/api/v1/pages", body: { ...testPage("typo"), settings: { foldEverySeconds: 5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "foldEverySeconds" },
   { name: "segmentBy with a bad name", method: "POST", path: "/api/v1/pages", body: { ...testPage("badseg"), segmentBy: ["source|x"] }, as: "admin", status: 400, code: "INVALID_DEFINITION", field: "segmentBy.0" },
   { name: "existing page key", method: "POST", path: "/api/v1/pages", body: testPage("fixture"), as: "admin", status: 409, code: "PAGE_EXISTS", field: "key" },
   { name: "check a definition with one level", method: "POST", path: "/api/v1/definitions/check", body: { factors: [{ name: "title", levels: [{ name: "only" }] }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
+  // the check takes the whole create body and answers as POST /pages would
+  { name: "check: setting out of range", method: "POST", path: "/api/v1/definitions/check", body: { ...testPage("checkset"), settings: { baselineShare: 1.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "baselineShare" },
+  { name: "check: segmentBy with a bad name", method: "POST", path: "/api/v1/definitions/check", body: { ...testPage("checkseg"), segmentBy: ["source|x"] }, as: "admin", status: 400, code: "INVALID_DEFINITION", field: "segmentBy.0" },
+  { name: "check: page key with capitals", method: "POST", path: "/api/v1/definitions/check", body: { ...testPage("x"), key: "My Page" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "key", message: "key: the page key is not valid: use 1–63 lowercase letters, digits and '-', starting with a letter or digit" },
+  { name: "check: existing page key", method: "POST", path: "/api/v1/definitions/check", body: testPage("fixture"), as: "admin", status: 409, code: "PAGE_EXISTS", field: "key" },
+  { name: "check: unknown field", method: "POST", path: "/api/v1/definitions/check", body: { ...testPage("x"), colour: "red" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "colour" },
   // page edits
   { name: "edit: remove an unknown factor", method: "PATCH", path: P, body: { removeFactors: ["colour"] }, as: "admin", status: 400, code: "UNKNOWN_FACTOR", field: "removeFactors.0" },
   { name: "edit: remove an unknown level", method: "PATCH", path: P, body: { removeLevels: [{ factor: "photo", level: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL", field: "removeLevels.0.level" },
   { name: "edit: valid value change plus an unknown level", method: "PATCH", path: P, body: { name: "Renamed", levelValues: [{ factor: "title", level: "short", value: "changed" }, { factor: "title", level: "tiny", value: "x" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL", field: "levelValues.1.level" },
-  { name: "edit: unknown status", method: "PATCH", path: P, body: { status: "stopped" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "status" },
+  { name: "edit: unknown status", method: "PATCH", path: P, body: { status: "stopped" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "status", message: 'status: the status must be one of "active", "paused" or "frozen"' },
   { name: "edit: setting out of range", method: "PATCH", path: P, body: { settings: { explorationFloor: 2 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "explorationFloor" },
+  { name: "edit: a whole number setting given a fraction", method: "PATCH", path: P, body: { settings: { samples: 10.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "samples", message: 'Invalid setting "samples": the value must be a whole number, not 10.5' },
   { name: "edit: leave a factor one level", method: "PATCH", path: P, body: { removeLevels: [{ factor: "title", level: "long" }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
   { name: "edit: unknown page", method: "PATCH", path: "/api/v1/pages/no-such-page", body: { name: "x" }, as: "admin", status: 404, code: "UNKNOWN_PAGE" },
   // reads
   { name: "report of an unknown page", method: "GET", path: "/api/v1/pages/no-such-page/report", as: "admin", status: 404, code: "UNKNOWN_PAGE" },
   { name: "export in an unknown format", method: "GET", path: `${P}/export?format=xml`, as: "admin", status: 400, code: "INVALID_REQUEST", field: "format" },
   { name: "demo traffic on a normal page", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 10 }, as: "admin", status: 409, code: "NOT_DEMO_PAGE" },
-  { name: "demo traffic: zero visitors", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 0 }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "visitors" },
+  { name: "demo traffic: zero visitors", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 0 }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "visitors", message: "visitors: the number of visitors must be at least 1" },
   { name: "unknown API route", method: "GET", path: "/api/v1/nothing-here", as: "admin", status: 404, code: "NOT_FOUND" },
 ];
 
@@ -117,6 +128,9 @@ forEachDatabase("bad inputs", (open) => {
     expect(typeof r.body.error.message).toBe("string");
     expect(r.body.error.message).not.toMatch(/\{\w+\}/); // every template placeholder filled
     if (c.field !== undefined) expect(r.body.error.field).toBe(c.field);
+    if (c.message !== undefined) expect(r.body.error.message).toBe(c.message);
+    // zod's own wording (its default messages, zod 4) never reaches a user
+    expect(r.body.error.message).not.toMatch(/Too small|Too big|Invalid input|Invalid option|Unrecognized key|expected \w+ to have|received \w+$/);
     expect(r.text).not.toMatch(/\.ts:\d+|node_modules|at \w+ \(/); // no stack trace
     expect(await fingerprint()).toBe(before);
   });

@@ -146,14 +146,17 @@ export async function countPages(q: Queryable): Promise<number> {
   return rows[0].n;
 }
 
-export interface PageTotals { visitors: number; conversions: number; segments: number }
+/** `settled`: segments (not the pooled "*") whose summary in the latest snapshot says settled. */
+export interface PageTotals { visitors: number; conversions: number; segments: number; settled: number }
 
 export async function pageTotals(q: Queryable, pageIds: number[]): Promise<Map<number, PageTotals>> {
-  const { rows } = await q.query<{ page_id: number; visitors: number; conversions: number; segments: number }>(
+  const { rows } = await q.query<{ page_id: number; visitors: number; conversions: number; segments: number; settled: number }>(
     `SELECT p.id AS page_id,
        (SELECT count(*)::int FROM pick WHERE page_id = p.id) AS visitors,
        (SELECT count(converted_at)::int FROM pick WHERE page_id = p.id) AS conversions,
-       (SELECT count(*)::int FROM segment WHERE page_id = p.id) AS segments
+       (SELECT count(*)::int FROM segment WHERE page_id = p.id) AS segments,
+       (SELECT count(*)::int FROM posterior_snapshot s, jsonb_each(s.summary) AS e(segment, summary)
+         WHERE s.page_id = p.id AND s.version = p.model_version AND e.segment <> '*' AND e.summary->>'status' = 'settled') AS settled
      FROM page p WHERE p.id = ANY($1)`, [pageIds]);
-  return new Map(rows.map((r) => [r.page_id, { visitors: r.visitors, conversions: r.conversions, segments: r.segments }]));
+  return new Map(rows.map((r) => [r.page_id, { visitors: r.visitors, conversions: r.conversions, segments: r.segments, settled: r.settled }]));
 }
