@@ -34,9 +34,9 @@ Options:
   --json           print exactly one JSON object (no table, no progress bar)
   --out DIR        also write DIR/report.json, DIR/regret.svg and DIR/best-share.svg
   --threads T      worker threads (default: the machine's cores)
-  --maturity M     "server" (default): a conversion matures at once, a non-conversion when its
-                   attribution window closes; "window": every pick matures when its window
-                   closes; "immediate": every pick matures at once (the unbiased ceiling)`;
+  --maturity M     "server" (default): as the server folds, each pick at once as a trial and its
+                   conversion when reported (here: at once); "window": every pick, with its
+                   outcome, only when its attribution window closes`;
 
 export async function run(argv: string[]): Promise<number> {
   const { values, positionals } = parseFlags(() =>
@@ -54,8 +54,8 @@ export async function run(argv: string[]): Promise<number> {
     throw fail("INVALID_OPTION", { option: "<scenario.json>", reason: "give exactly one scenario file" });
   }
   const maturity = values.maturity ?? "server";
-  if (maturity !== "server" && maturity !== "window" && maturity !== "immediate") {
-    throw fail("INVALID_OPTION", { option: "--maturity", reason: `expected "server", "window" or "immediate", got "${maturity}"` });
+  if (maturity !== "server" && maturity !== "window") {
+    throw fail("INVALID_OPTION", { option: "--maturity", reason: `expected "server" or "window", got "${maturity}"` });
   }
   const scenario = loadScenario(positionals[0]!);
   const runs = numberFlag("runs", values.runs, scenario.runs, { min: 1, max: 10_000, integer: true });

@@ -1,18 +1,16 @@
 /**
- * When a pick's outcome reaches the policy, the way the server does it (DESIGN.md glossary,
- * "attribution window"): a conversion is reported at once, so a converting pick matures
- * immediately; a pick that does not convert matures only when its attribution window closes.
- *
- * This creates a delayed-feedback asymmetry: at any moment the matured data holds the recent
- * conversions but not yet the recent non-conversions, so combinations served a lot lately look
- * better than they are until their windows close. Two other rules let the harness measure what
- * the asymmetry costs (`facetwise simulate --maturity …`):
- *   "window"    — every pick, converting or not, matures when its window closes (unbiased, but
- *                 nothing is learnt during the first window);
- *   "immediate" — every pick matures at once (in the simulator conversions are instant, so this
- *                 is the unbiased ceiling that delay-aware counting could approach).
+ * When a pick's outcome reaches the policy (`facetwise simulate --maturity …`):
+ *   "server" (default) — the server's rule (src/store/repositories/folds.ts): every pick folds as a
+ *                 trial at the first fold after it is served and its conversion at the first fold
+ *                 after it is reported inside the attribution window. The simulator reports
+ *                 conversions at once, so a pick and its outcome reach the policy together.
+ *   "window"    — every pick, converting or not, reaches the policy when its attribution window
+ *                 closes: also unbiased, but nothing is learnt during the first window; kept to
+ *                 measure what waiting for the window costs.
+ * (The earlier server rule — a conversion at once, a non-conversion at window close — fed the model
+ * recent conversions without their non-conversions and inflated its rates 2–10×; it is gone.)
  */
-export type MaturityRule = "server" | "window" | "immediate";
+export type MaturityRule = "server" | "window";
 
 export type OnMature = (segment: number, combination: number, converted: boolean) => void;
 
@@ -32,7 +30,7 @@ export class MaturityQueue {
 
   /** Records visitor `visitor`'s pick. */
   add(visitor: number, segment: number, combination: number, converted: boolean): void {
-    if (this.rule === "immediate" || (converted && this.rule === "server")) {
+    if (this.rule === "server") {
       this.onMature(segment, combination, converted);
       return;
     }
