@@ -209,8 +209,22 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     await page.selectOption('[aria-label="Rule 1, condition 2 level"]', { label: "call" });
     await expect.poll(() => count.textContent()).toBe("3 factors · 12 combinations · 2 excluded");
 
+    // segment keys, settings and the page key are checked as you type too, each message beside its field
+    const backToValid = () => expect.poll(() => count.textContent()).toBe("3 factors · 12 combinations · 2 excluded");
+    await page.fill("#segment-by", "source|x");
+    await expect.poll(() => page.getAttribute("#segment-by", "aria-invalid")).toBe("true");
+    expect(await count.textContent()).toBe("Not valid yet");
     await page.fill("#segment-by", "source");
+    await backToValid();
+    await page.fill('input[name="attributionWindowHours"]', "0");
+    await expect.poll(() => page.getAttribute('input[name="attributionWindowHours"]', "aria-invalid")).toBe("true");
+    expect(await page.textContent('[data-error-for="settings.attributionWindowHours"]')).toContain("must be more than 0");
     await page.fill('input[name="attributionWindowHours"]', "0.0005");
+    await backToValid();
+    await page.fill("#page-key", "bike-repair-demo");
+    await expect.poll(() => page.getAttribute("#page-key", "aria-invalid")).toBe("true");
+    await page.fill("#page-key", "winter-tyres");
+    await backToValid();
     await page.click("text=More settings");
     await page.fill('input[name="foldIntervalSeconds"]', "1");
     await shot("editor-1280");
@@ -306,6 +320,21 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(await item.textContent()).toMatch(/Almost no chance of being the best: .* for \d+ updates in a row/);
     await shot("demo-retired-1280");
   }, 180_000);
+
+  it("lists each page with how many of its segments have settled", async () => {
+    await page.goto(`${server.url}/#/`);
+    const card = page.locator("article.page-card", { has: page.locator("a[href='#/p/winter-tyres']") });
+    // the card says what GET /pages says (the list refreshes itself every 10 s)
+    const expected = async () => {
+      const { totals } = await api<{ totals: { segments: number; settled: number } }>("GET", "/pages/winter-tyres");
+      return `${totals.settled} of ${totals.segments} segment${totals.segments === 1 ? "" : "s"} settled`;
+    };
+    expect(await expected()).toMatch(/^\d+ of [1-9]\d* segments? settled$/);
+    await expect.poll(async () => (await card.textContent())?.includes(await expected()), { timeout: 15_000 }).toBe(true);
+    // back where the next test expects to be
+    await page.goto(`${server.url}/#/p/bike-repair-demo`);
+    await page.waitForSelector("role=tab[name='Results']");
+  });
 
   it("keeps open panels, scroll position and typed input across live refreshes", async () => {
     await page.click("role=tab[name='Results']");

@@ -26,7 +26,8 @@ export interface Page {
   lastFoldAt: string | null;
   createdAt: string;
   updatedAt: string;
-  totals: { visitors: number; conversions: number; segments: number };
+  /** settled: segments whose latest summary says settled */
+  totals: { visitors: number; conversions: number; segments: number; settled: number };
 }
 
 export interface PageDefinitionBody {
@@ -39,7 +40,7 @@ export interface PageDefinitionBody {
 
 export interface DefinitionCheck { factors: { name: string; levels: string[] }[]; combinations: CombinationCounts; dimension: number }
 
-/** The part of a definition POST /definitions/check validates. */
+/** A definition's factors, rules and pairs: POST /definitions/check takes these alone or within a whole create body. */
 export interface DefinitionCore { factors: FactorSpec[]; exclude?: Exclusion[]; interactions?: [string, string][] }
 
 export interface LearnedNote {

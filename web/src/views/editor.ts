@@ -1,8 +1,9 @@
 /**
  * Defining a new page: factors and their levels (with the value the landing page renders),
  * exclusion rules, the context keys that form segments, which factor pairs may interact, and the
- * settings. Every change is checked by the server (POST /definitions/check) a moment after typing
- * stops; the count line and the server's own messages update in place without disturbing focus.
+ * settings. Every change is checked by the server (POST /definitions/check, which takes the whole
+ * create body: page key and name, segment keys and settings too) a moment after typing stops; the
+ * count line and the server's own messages update in place without disturbing focus.
  */
 import { api, ApiError } from "../api.ts";
 import { asColour, h, replace, uid } from "../dom.ts";
@@ -98,8 +99,10 @@ export function renderEditor(main: HTMLElement): View {
       return;
     }
     try {
-      const { factors, exclude, interactions } = body();
-      const result = await api<DefinitionCheck>("POST", "/definitions/check", { factors, exclude, interactions });
+      // key and name are sent once typed, so an empty one is not an error while the factors are written
+      const key = keyInput.value.trim();
+      const name = nameInput.value.trim();
+      const result = await api<DefinitionCheck>("POST", "/definitions/check", { ...(key ? { key } : {}), ...(name ? { name } : {}), ...body() });
       if (disposed || seq !== checkSeq) return;
       const c = result.combinations;
       count.textContent = countLine(result.factors.length, c.total, c.excluded);
@@ -110,7 +113,8 @@ export function renderEditor(main: HTMLElement): View {
       showFieldErrors(main, problems, null);
     } catch (error) {
       if (disposed || seq !== checkSeq) return;
-      if (error instanceof ApiError && error.status === 400) {
+      // 409: the page key is taken
+      if (error instanceof ApiError && (error.status === 400 || error.status === 409)) {
         count.textContent = "Not valid yet";
         count.classList.add("invalid");
         countDetail.textContent = "The server's message says what to fix:";
@@ -386,7 +390,7 @@ export function renderEditor(main: HTMLElement): View {
     ),
   );
 
-  segmentInput.addEventListener("input", scheduleCheck);
+  for (const input of [segmentInput, keyInput, nameInput]) input.addEventListener("input", scheduleCheck);
   // the key follows the name ("Spring sale" → "spring-sale") until the user edits the key itself
   let keyEdited = false;
   keyInput.addEventListener("input", () => (keyEdited = keyInput.value !== ""));

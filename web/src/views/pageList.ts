@@ -80,7 +80,9 @@ function pageCard(page: Page): HTMLElement {
       ),
       h("div", null, h("dt", null, "Visitors"), h("dd", null, n(page.totals.visitors))),
       h("div", null, h("dt", null, "Conversion rate"), h("dd", null, pct(rate))),
-      h("div", null, h("dt", null, "Segments"), h("dd", null, n(page.totals.segments))),
+      h("div", null, h("dt", null, "Segments"), h("dd", null, page.totals.segments === 0
+        ? "none yet"
+        : `${n(page.totals.settled)} of ${plural(page.totals.segments, "segment")} settled`)),
       h("div", null, h("dt", null, "Last update"), h("dd", null, when(page.lastFoldAt))),
     ),
   );
