@@ -1,8 +1,9 @@
 /**
- * The fold loop on every database target: which picks mature (converted, or attribution window
- * closed — the definition in DESIGN.md), conversions inside and after the window, one folder at
- * a time, no pick folded twice across a restart, and the stored posterior equal to a replay of
- * the engine's foldCycle over the stored picks.
+ * The fold loop on every database target: every pick folds as a trial (n) in the first fold after
+ * it is served and its conversion (k) in the first fold after it is reported inside the attribution
+ * window (src/store/repositories/folds.ts), one folder at a time, no trial or conversion folded
+ * twice across a restart, and the stored posterior equal to a replay of the engine's foldCycle
+ * over the stored picks.
  */
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { setTimeout as sleep } from "node:timers/promises";
@@ -23,6 +24,22 @@ async function createPage(h: Harness, key: string, settings: Record<string, unkn
   const id = (await h.db.pool.query("SELECT id FROM page WHERE key = $1", [key])).rows[0].id as number;
   return { key, publicKey: r.body.publicKey, id };
 }
+
+/** Picks whose trial or conversion the next fold will count. */
+const unfolded = async (db: Database, pageId: number) =>
+  (await db.pool.query(
+    `SELECT count(*)::int AS n FROM pick WHERE page_id = $1
+       AND (state = 'open' OR (state = 'folded' AND converted_at IS NOT NULL AND conversion_folded_version IS NULL))`, [pageId])).rows[0].n as number;
+
+/** foldedRows summed per fold version (the picks of a page show several combinations). */
+const perVersion = async (db: Database, pageId: number) => {
+  const totals = new Map<number, { version: number; n: number; k: number }>();
+  for (const { version, n, k } of await foldedRows(db.pool, pageId)) {
+    const t = totals.get(version) ?? { version, n: 0, k: 0 };
+    totals.set(version, { version, n: t.n + n, k: t.k + k });
+  }
+  return [...totals.values()];
+};
 
 const states = async (db: Database, pageId: number) =>
   (await db.pool.query("SELECT state, count(*)::int AS n FROM pick WHERE page_id = $1 GROUP BY 1 ORDER BY 1", [pageId])).rows
@@ -59,20 +76,38 @@ forEachDatabase("fold loop", (open, target) => {
       expect(report.pooled).toMatchObject({ visitors: 2, conversions: 1, folded: 2 });
     });
 
-    it("folds converted and window-closed picks only; open ones wait", async () => {
+    it("folds trials at once, a later conversion inside the window as k in a later fold, one after the window never", async () => {
       const page = await createPage(h, "mature-page", { attributionWindowHours: 1 });
       const picks = [];
-      for (const v of ["a", "b", "c", "d"]) picks.push((await h.pick(page, v, { source: "social" })).body.pick);
-      await h.outcome(page, { pick: picks[0], event: "conv-a" });                 // converted → matures now
-      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE id = $1", [picks[1]]); // window closed
-      const fold = await h.server.services.folds.foldPage(page.id, true);
-      expect(fold).toMatchObject({ folded: true, picks: 2 });
-      expect(await states(h.db, page.id)).toEqual({ folded: 2, open: 2 });
-      const rows = await foldedRows(h.db.pool, page.id);
-      expect(rows.reduce((s, r) => s + r.k, 0)).toBe(1);
-      // the same picks are never folded again
+      for (const v of ["a", "b", "c"]) picks.push((await h.pick(page, v, { source: "social" })).body.pick);
+      await h.outcome(page, { pick: picks[0], event: "conv-a" });
+      const first = await h.server.services.folds.foldPage(page.id, true);
+      // every trial folds at once; a's conversion, reported before the fold, lands in the same fold
+      expect(first).toMatchObject({ folded: true, picks: 3 });
+      expect(await states(h.db, page.id)).toEqual({ folded: 3 });
+      const v1 = first.folded ? first.version : 0;
+      expect(await perVersion(h.db, page.id)).toEqual([{ version: v1, n: 3, k: 1 }]);
+
+      // b converts after its trial was folded, still inside its window: counted, and pending until the next fold
+      expect((await h.outcome(page, { pick: picks[1], event: "conv-b" })).body).toEqual({ accepted: true, duplicate: false, counted: true });
+      expect((await h.admin("GET", `/pages/${page.key}/report`)).body.totals).toMatchObject({ visitors: 3, conversions: 2, pending: 1 });
+      // c's window closes before it converts: stored, never counted
+      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE id = $1", [picks[2]]);
+      expect((await h.outcome(page, { pick: picks[2], event: "conv-c" })).body.counted).toBe(false);
+      const second = await h.server.services.folds.foldPage(page.id, true);
+      expect(second).toMatchObject({ folded: true, picks: 0 });
+      const v2 = second.folded ? second.version : 0;
+      expect(await perVersion(h.db, page.id)).toEqual([{ version: v1, n: 3, k: 1 }, { version: v2, n: 0, k: 1 }]);
+      expect((await h.admin("GET", `/pages/${page.key}/report`)).body.totals).toMatchObject({ visitors: 3, conversions: 2, pending: 0 });
+
+      // nothing is folded again: a second conversion event of b is not counted, and the model's tallies stay put
+      expect((await h.outcome(page, { pick: picks[1], event: "conv-b-again" })).body.counted).toBe(false);
       const again = await h.server.services.folds.foldPage(page.id, true);
       expect(again).toMatchObject({ folded: true, picks: 0 });
+      expect((await foldedRows(h.db.pool, page.id)).reduce((sum, r) => sum + r.k, 0)).toBe(2);
+      const snapshot = (await loadSnapshot(h.db.pool, page.id, again.folded ? again.version : 0))!;
+      const sites = [...deserializeState(snapshot.state).sites.values()];
+      expect({ visitors: sites.reduce((t, x) => t + x.visitors, 0), conversions: sites.reduce((t, x) => t + x.conversions, 0) }).toEqual({ visitors: 3, conversions: 2 });
     });
 
     it("serves segments beyond maxSegments from the pooled model and still learns from them", async () => {
@@ -82,7 +117,6 @@ forEachDatabase("fold loop", (open, target) => {
       expect(first.body.segment).toBe("source=search");
       expect(beyond.body.segment).toBe("*");
       await h.outcome(page, { pick: beyond.body.pick, event: "o2-conv" });
-      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
       const fold = await h.server.services.folds.foldPage(page.id, true);
       expect(fold).toMatchObject({ folded: true, picks: 2 });
       const report = (await h.admin("GET", `/pages/${page.key}/report`)).body;
@@ -96,7 +130,6 @@ forEachDatabase("fold loop", (open, target) => {
     it("keeps serving picks while a fold computes", async () => {
       const page = await createPage(h, "busy-page", {});
       await h.pick(page, "b0", { source: "search" });
-      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
       const loop = h.server.services.folds;
       const compute = loop.context.compute;
       let during: { status: number; sticky: boolean } | null = null;
@@ -114,10 +147,9 @@ forEachDatabase("fold loop", (open, target) => {
       expect(during).toEqual({ status: 200, sticky: false });
     });
 
-    it("discards a fold when picks matured or the page changed while it computed, and folds them next pass", async () => {
+    it("discards a fold when a conversion landed or the page changed while it computed, and folds them next pass", async () => {
       const page = await createPage(h, "raced-page", {});
       for (const v of ["r0", "r1"]) await h.pick(page, v, { source: "search" });
-      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1 AND visitor = 'r0'", [page.id]);
       const loop = h.server.services.folds;
       const compute = loop.context.compute;
       const raceWith = async (sideEffect: () => Promise<unknown>) => {
@@ -136,8 +168,9 @@ forEachDatabase("fold loop", (open, target) => {
           (loop.context as { compute: typeof compute }).compute = compute;
         }
       };
-      // r1's window is found closed (as of the fold's read time) only after the read
-      const raced = await raceWith(() => h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 hour' WHERE page_id = $1 AND visitor = 'r1'", [page.id]));
+      // a conversion stamped before the fold's read time commits only after the read (an outcome
+      // whose transaction began before the read and ended after it)
+      const raced = await raceWith(() => h.db.pool.query("UPDATE pick SET converted_at = now() - interval '1 hour' WHERE page_id = $1 AND visitor = 'r1'", [page.id]));
       expect(raced).toMatchObject({ folded: false, reason: "raced" });
       expect(await states(h.db, page.id)).toEqual({ open: 2 });
       if (target.kind === "embedded") {
@@ -148,14 +181,14 @@ forEachDatabase("fold loop", (open, target) => {
       const version = (await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [page.id])).rows[0].model_version;
       expect(await loop.foldPage(page.id, true)).toMatchObject({ folded: true, version: version + 1 });
       expect(await states(h.db, page.id)).toEqual({ folded: 2 });
-      // (the edit's own fold may have taken them first) — either way each pick was folded once
+      // (the edit's own fold may have taken them first) — either way each trial and conversion was folded once
       expect((await foldLogs(h.db.pool, page.id)).reduce((sum, l) => sum + l.picks, 0)).toBe(2);
+      expect((await foldedRows(h.db.pool, page.id)).reduce((sum, r) => sum + r.k, 0)).toBe(1);
     });
 
     it("lets one folder fold a due page at a time", async () => {
       const page = await createPage(h, "one-folder", { foldIntervalSeconds: 1 });
       for (const v of ["p", "q", "r"]) await h.pick(page, v, { source: "search" });
-      await h.db.pool.query("UPDATE pick SET window_ends_at = now() - interval '1 second' WHERE page_id = $1", [page.id]);
       await sleep(1100);
       // a second server process on the same database: its own pool on PostgreSQL
       const other = target.kind === "postgres" ? await reopen(h.db) : null;
@@ -188,7 +221,7 @@ forEachDatabase("fold loop", (open, target) => {
     }
   });
 
-  it("resumes after a restart without folding any pick twice, and the stored posterior equals a replay of the stored picks", async () => {
+  it("resumes after a restart without folding any trial or conversion twice, and the stored posterior equals a replay of the stored picks", async () => {
     const storage = await target.storage();
     try {
       let db = await storage.open();
@@ -203,14 +236,14 @@ forEachDatabase("fold loop", (open, target) => {
         }
       };
       await serve(0, 60);
-      await waitUntil(async () => (await states(db, page.id)).open === undefined);
+      await waitUntil(async () => (await unfolded(db, page.id)) === 0);
       await h.close();
       await db.close();
 
       db = await storage.open();
       h = await startHarness(db, { foldLoop: true, foldTickMs: 100 });
       await serve(60, 90);
-      await waitUntil(async () => (await states(db, page.id)).open === undefined);
+      await waitUntil(async () => (await unfolded(db, page.id)) === 0);
       await h.close(); // stops the loop: the state below is final
 
       const folded = await foldedRows(db.pool, page.id);
@@ -218,6 +251,7 @@ forEachDatabase("fold loop", (open, target) => {
       const pickTotal = (await db.pool.query("SELECT count(*)::int AS n, count(converted_at)::int AS k FROM pick WHERE page_id = $1", [page.id])).rows[0];
       expect(pickTotal.n).toBe(90);
       expect(folded.reduce((s, r) => s + r.n, 0)).toBe(90);
+      expect(folded.reduce((s, r) => s + r.k, 0)).toBe(pickTotal.k);
       // every fold logged the picks it consumed; their sum is each pick exactly once
       expect(logs.reduce((s, l) => s + l.picks, 0)).toBe(90);
       expect(new Set(logs.map((l) => l.version)).size).toBe(logs.length);
