@@ -49,8 +49,10 @@ function required(flag: string, value: string | undefined): string {
   return value;
 }
 
-const show = (i: Interval, digits = 1): string =>
-  i.median === null ? "beyond horizon" : `${i.median.toFixed(digits)} (${i.p10?.toFixed(digits) ?? "?"}–${i.p90 === null ? "beyond" : i.p90.toFixed(digits)})`;
+const show = (i: Interval, unit: string, digits = 1): string =>
+  i.median === null
+    ? `beyond the horizon`
+    : `${i.median.toFixed(digits)} ${unit} (p10–p90 ${i.p10?.toFixed(digits) ?? "?"}–${i.p90 === null ? "beyond the horizon" : i.p90.toFixed(digits)})`;
 
 export function formatPlan(r: PlanReport): string {
   const e = r.engine;
@@ -59,12 +61,12 @@ export function formatPlan(r: PlanReport): string {
       `baseline ${(r.structure.baseline * 100).toFixed(2)}%, mde ${(r.structure.mde * 100).toFixed(0)}%, ${r.structure.visitorsPerDay.toLocaleString("en-US")} visitors/day`,
     `Simulated: ${r.draws} random truths × ${r.horizonDays} days (seed ${r.seed}); median (p10–p90) over the truths`,
     "",
-    `classic split test, fixed horizon   ${show(r.fixedHorizonDays)} days`,
-    `engine: days until every segment settled   ${show(e.daysToSettle)} days` +
+    `classic split test, fixed horizon   ${show(r.fixedHorizonDays, "days")}`,
+    `engine: days until every segment settled   ${show(e.daysToSettle, "days")}` +
       `  (${(e.settledWithinHorizon * 100).toFixed(0)}% of truths settled within ${r.horizonDays} days)`,
     `engine: settled leaders within mde of the best   ${e.settleCorrect === null ? "—" : `${(e.settleCorrect * 100).toFixed(1)}%`}`,
-    `engine: regret over ${r.horizonDays} days (conversions lost)   ${show(e.regret, 0)}`,
-    `split test: regret over ${r.horizonDays} days   ${show(e.splitRegret, 0)}   → engine saves ${(e.savingVsSplit * 100).toFixed(0)}%`,
+    `engine: regret over ${r.horizonDays} days   ${show(e.regret, "conversions lost", 0)}`,
+    `split test: regret over ${r.horizonDays} days   ${show(e.splitRegret, "conversions lost", 0)}   → engine saves ${(e.savingVsSplit * 100).toFixed(0)}%`,
     "",
     `Truths drawn as: ${r.prior}`,
   ].join("\n");
