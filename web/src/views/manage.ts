@@ -294,7 +294,7 @@ function learnedBox(note: LearnedNote): HTMLElement {
   const lists = [
     note.droppedFeatures.length ? h("li", null, `Dropped: ${note.droppedFeatures.join(", ")}.`) : null,
     note.addedFeatures.length ? h("li", null, `Starting from the prior: ${note.addedFeatures.join(", ")}.`) : null,
-    note.droppedOpenPicks ? h("li", null, `${n(note.droppedOpenPicks)} visits still inside their attribution window no longer count.`) : null,
+    note.droppedOpenPicks ? h("li", null, `${n(note.droppedOpenPicks)} visits not yet taken into the model no longer count.`) : null,
   ].filter(Boolean);
   return h(
     "div",

@@ -131,7 +131,7 @@ export function renderPageView(main: HTMLElement, route: Route): View {
       h("span", null, h("strong", null, n(t.visitors)), " visitors"),
       h("span", null, h("strong", null, n(t.conversions)), " conversions"),
       h("span", null, h("strong", null, pct(rate)), " overall"),
-      t.pending ? h("span", null, h("strong", null, n(t.pending)), " still inside their attribution window") : null,
+      t.pending ? h("span", null, h("strong", null, n(t.pending)), " waiting for the next fold") : null,
     );
     const version = report?.modelVersion ?? page.modelVersion;
     freshness.textContent =
