@@ -5,7 +5,7 @@
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
-import { reasonOf } from "../service/issues.ts";
+import { firstIssue, reasonOf } from "../service/issues.ts";
 
 const name = z.string().min(1).max(100);
 const text = z.string().max(10_000);
@@ -71,7 +71,7 @@ export function parse<T extends z.ZodType>(schema: T, input: unknown, where = "b
   }
   const result = schema.safeParse(input, { reportInput: true });
   if (result.success) return result.data;
-  const issue = result.error.issues[0];
+  const issue = firstIssue(result.error.issues);
   let path = issue.path.map(String).join(".");
   if (issue.code === "unrecognized_keys") path = [path, issue.keys[0]].filter(Boolean).join(".");
   const field = path || where;

@@ -7,7 +7,7 @@ import { buildDesign, combinationKey, parseCombinationKey, isAllowed, parseSetti
 import type { Design, PageDefinition, PageSettings } from "../model/index.ts";
 import type { StoredPage, PageTotals } from "../store/repositories/pages.ts";
 import { fail } from "../errors.ts";
-import { reasonOf } from "./issues.ts";
+import { firstIssue, reasonOf } from "./issues.ts";
 
 /** The demo page's key; only it accepts POST /demo-traffic. */
 export const DEMO_PAGE_KEY = "bike-repair-demo";
@@ -41,7 +41,7 @@ export function settingsOf(page: Pick<StoredPage, "settings">): PageSettings {
 export function settingsFrom(input: Record<string, unknown>): PageSettings {
   const result = settingsSchema.safeParse(input, { reportInput: true });
   if (result.success) return result.data;
-  const issue = result.error.issues[0];
+  const issue = firstIssue(result.error.issues);
   // an unknown name: the engine's own answer points at the settings table
   if (issue.code === "unrecognized_keys" || issue.path.length === 0) return parseSettings(input);
   const name = issue.path.map(String).join(".");

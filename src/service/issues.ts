@@ -66,6 +66,18 @@ function named(path: PropertyKey[]): { owner: string | null; last: string | null
   return { owner, last, subject };
 }
 
+/**
+ * The issue to report: the first one, or — when one value broke several bounds of one kind
+ * (1.5 for "at most 1" and "less than 1") — the tightest of them, so fixing it is enough.
+ */
+export function firstIssue(issues: Issue[]): Issue {
+  const first = issues[0];
+  const same = issues.filter((i) => i.code === first.code && i.path.join(".") === first.path.join("."));
+  const limit = (i: Issue) => i.code === "too_big" ? Number(i.maximum) - (i.inclusive ? 0 : 1e-12)
+    : i.code === "too_small" ? -(Number(i.minimum) + (i.inclusive ? 0 : 1e-12)) : 0;
+  return same.reduce((best, i) => (limit(i) < limit(best) ? i : best), first);
+}
+
 /** A sentence saying what to fix, without the path (the error's `field` carries it). */
 export function reasonOf(issue: Issue, subject = named(issue.path).subject): string {
   const { owner, last } = named(issue.path);
