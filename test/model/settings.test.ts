@@ -5,12 +5,13 @@ import { defaultSettings, parseSettings } from "../../src/model/index.ts";
 describe("page settings", () => {
   it("fills every default from the contract's settings table", () => {
     // Values from the settings table of the project contract (not an outside source), except the
-    // engine's simulator-tuned segmentSpread 0.1 and its added segmentInterceptSpread (settings.ts).
+    // simulator-tuned values (segmentSpread, explorationFloor, baselineShare, prior scales) and the
+    // added segmentInterceptSpread — see the doc comment of settings.ts for the runs behind them.
     expect(parseSettings({})).toEqual({
-      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 900, explorationFloor: 0.02,
-      baselineShare: 0.05, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
+      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 900, explorationFloor: 0.005,
+      baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
       retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.1, segmentInterceptSpread: 1, priorInterceptMean: -3, priorInterceptScale: 2,
-      priorMainScale: 0.5, priorInteractionScale: 0.25, samples: 1000, maxSegments: 200,
+      priorMainScale: 0.25, priorInteractionScale: 0.1, samples: 1000, maxSegments: 200,
     });
     expect(parseSettings(undefined)).toEqual(defaultSettings);
     expect(parseSettings({ halfLifeDays: 3 }).halfLifeDays).toBe(3);
