@@ -8,7 +8,7 @@ describe("page settings", () => {
     // simulator-tuned values (segmentSpread, explorationFloor, baselineShare, prior scales) and the
     // added segmentInterceptSpread — see the doc comment of settings.ts for the runs behind them.
     expect(parseSettings({})).toEqual({
-      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 900, explorationFloor: 0.005,
+      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 3600, explorationFloor: 0.005,
       baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
       retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.1, segmentInterceptSpread: 1, priorInterceptMean: -3, priorInterceptScale: 2,
       priorMainScale: 0.25, priorInteractionScale: 0.1, samples: 1000, maxSegments: 200,

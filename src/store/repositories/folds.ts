@@ -47,7 +47,7 @@ export async function dueForFold(q: Queryable): Promise<number[]> {
   const { rows } = await q.query<{ id: number }>(
     `SELECT id FROM page
      WHERE status <> 'paused' AND (last_fold_at IS NULL OR
-       last_fold_at + make_interval(secs => coalesce((settings->>'foldIntervalSeconds')::float8, 900)) <= now())
+       last_fold_at + make_interval(secs => coalesce((settings->>'foldIntervalSeconds')::float8, 3600)) <= now())
      ORDER BY last_fold_at NULLS FIRST`);
   return rows.map((r) => r.id);
 }
