@@ -7,11 +7,12 @@
  */
 import type { Rng } from "../model/index.ts";
 import { betaSample } from "./betaSample.ts";
+import { conversionTally } from "./conversionTally.ts";
 import type { Policy } from "./policy.ts";
 
 export function independentPolicy(segmentCount: number, combinationCount: number, rng: Rng): Policy {
-  const n = new Float64Array(segmentCount * combinationCount);
-  const k = new Float64Array(segmentCount * combinationCount);
+  const tally = conversionTally(segmentCount, combinationCount);
+  const { n, k } = tally;
   return {
     serve(segment) {
       const base = segment * combinationCount;
@@ -26,25 +27,8 @@ export function independentPolicy(segmentCount: number, combinationCount: number
       }
       return best;
     },
-    observe(segment, combination, converted) {
-      n[segment * combinationCount + combination]++;
-      if (converted) k[segment * combinationCount + combination]++;
-    },
+    observe: tally.observe,
     fold() {},
-    leaders() {
-      const out = new Int32Array(segmentCount);
-      for (let s = 0; s < segmentCount; s++) {
-        let best = -1;
-        for (let c = 0; c < combinationCount; c++) {
-          const i = s * combinationCount + c;
-          const mean = (1 + k[i]!) / (2 + n[i]!);
-          if (mean > best) {
-            best = mean;
-            out[s] = c;
-          }
-        }
-      }
-      return out;
-    },
+    leaders: () => tally.leaders((k, n) => (1 + k) / (2 + n)),
   };
 }

@@ -4,32 +4,15 @@
  * (ties → the lower index). No stopping rule.
  */
 import type { Rng } from "../model/index.ts";
+import { conversionTally } from "./conversionTally.ts";
 import type { Policy } from "./policy.ts";
 
 export function splitPolicy(segmentCount: number, combinationCount: number, rng: Rng): Policy {
-  const n = new Float64Array(segmentCount * combinationCount);
-  const k = new Float64Array(segmentCount * combinationCount);
+  const tally = conversionTally(segmentCount, combinationCount);
   return {
     serve: () => rng.int(combinationCount),
-    observe(segment, combination, converted) {
-      n[segment * combinationCount + combination]++;
-      if (converted) k[segment * combinationCount + combination]++;
-    },
+    observe: tally.observe,
     fold() {},
-    leaders() {
-      const out = new Int32Array(segmentCount);
-      for (let s = 0; s < segmentCount; s++) {
-        let best = -1;
-        for (let c = 0; c < combinationCount; c++) {
-          const i = s * combinationCount + c;
-          const rate = n[i]! > 0 ? k[i]! / n[i]! : 0;
-          if (rate > best) {
-            best = rate;
-            out[s] = c;
-          }
-        }
-      }
-      return out;
-    },
+    leaders: () => tally.leaders((k, n) => (n > 0 ? k / n : 0)),
   };
 }
