@@ -22,7 +22,7 @@ describe("fixedHorizon", () => {
     const { readFileSync } = await import("node:fs");
     const { parseScenario } = await import("../../src/sim/scenario.ts");
     const { setup } = await import("../../src/sim/setup.ts");
-    const s = setup(parseScenario(JSON.parse(readFileSync(new URL("../../../shared/scenarios/reference.json", import.meta.url), "utf8"))));
+    const s = setup(parseScenario(JSON.parse(readFileSync(new URL("../scenarios/reference.json", import.meta.url), "utf8"))));
     const h = fixedHorizon(Array.from(s.table.phases[0]!.best), s.scenario.segments.map((x) => x.share), s.keys.length, 0.1);
     expect(h.visitors).toBe(16_464_480);
   });

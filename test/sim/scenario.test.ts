@@ -3,7 +3,7 @@ import { describe, expect, it } from "vitest";
 import { FacetwiseError } from "../../src/errors.ts";
 import { parseScenario } from "../../src/sim/scenario.ts";
 
-const reference = JSON.parse(readFileSync(new URL("../../../shared/scenarios/reference.json", import.meta.url), "utf8"));
+const reference = JSON.parse(readFileSync(new URL("../scenarios/reference.json", import.meta.url), "utf8"));
 
 function errorOf(input: unknown): FacetwiseError {
   try {
