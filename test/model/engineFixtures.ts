@@ -4,7 +4,10 @@
  * Pages built here set workloads only; every check names its own outside source.
  */
 import { createRequire } from "node:module";
-import { buildDesign, type Design } from "../../src/model/index.ts";
+import { buildDesign, type Design, type FoldRow, type PageSettings } from "../../src/model/index.ts";
+import { writeActiveFeatures } from "../../src/model/design.ts";
+import { computePosteriors } from "../../src/model/hierarchy.ts";
+import { laplaceFit, type LaplaceResult, type RowBlock } from "../../src/model/newton.ts";
 
 interface JStatEngineParts {
   normal: { cdf(x: number, mean: number, sd: number): number; inv(p: number, mean: number, sd: number): number };
@@ -20,4 +23,20 @@ export function page(levels: number[], extra: { exclude?: Record<string, string>
     factors: levels.map((count, f) => ({ name: `f${f}`, levels: Array.from({ length: count }, (_, l) => ({ name: `l${l}` })) })),
     ...extra,
   });
+}
+
+/**
+ * The full-data Newton/Laplace fit of one segment's rows under that segment's prior (alone, a
+ * segment's prior is the new-segment prior "*"): the reference the sequential folds are held to.
+ */
+export function fullDataFit(design: Design, settings: PageSettings, rows: FoldRow[]): LaplaceResult {
+  const prior = computePosteriors(design, settings, new Map()).star;
+  const m = design.activeCount;
+  const keys = [...new Set(rows.map((r) => r.combination))];
+  const block: RowBlock = { count: keys.length, m, idx: new Int32Array(keys.length * m), x: new Float64Array(keys.length * m).fill(1), n: new Float64Array(keys.length), k: new Float64Array(keys.length) };
+  keys.forEach((key, r) => {
+    writeActiveFeatures(design, key.split("|").map((p, f) => design.factors[f].levels.indexOf(p.split("=")[1])), block.idx, r * m);
+    for (const row of rows) if (row.combination === key) { block.n[r] += row.n; block.k[r] += row.k; }
+  });
+  return laplaceFit({ precision: prior.precision, mean: prior.mean }, design.dimension, block);
 }

@@ -1,10 +1,9 @@
 import { describe, expect, it } from "vitest";
 import { combinationKey, createRng, foldState, initialState, parseSettings, type FoldRow } from "../../src/model/index.ts";
-import { writeActiveFeatures } from "../../src/model/design.ts";
 import { computePosteriors } from "../../src/model/hierarchy.ts";
 import { choleskyInverse } from "../../src/model/linalg.ts";
 import { laplaceFit, type RowBlock } from "../../src/model/newton.ts";
-import { page } from "./engineFixtures.ts";
+import { fullDataFit, page } from "./engineFixtures.ts";
 
 /** Rows of a one-feature (intercept-only) model. */
 function interceptRows(data: [number, number][]): RowBlock {
@@ -80,16 +79,7 @@ describe("folding trials and their conversions separately", () => {
 
     // Full-data Newton fit with the segment's prior (alone, its prior is the new-segment prior "*").
     const d = design.dimension;
-    const prior = computePosteriors(design, settings, new Map()).star;
-    const all = together.flat();
-    const m = design.activeCount;
-    const keys = [...new Set(all.map((r) => r.combination))];
-    const block: RowBlock = { count: keys.length, m, idx: new Int32Array(keys.length * m), x: new Float64Array(keys.length * m).fill(1), n: new Float64Array(keys.length), k: new Float64Array(keys.length) };
-    keys.forEach((key, r) => {
-      writeActiveFeatures(design, key.split("|").map((p, f) => design.factors[f].levels.indexOf(p.split("=")[1])), block.idx, r * m);
-      for (const row of all) if (row.combination === key) { block.n[r] += row.n; block.k[r] += row.k; }
-    });
-    const full = laplaceFit({ precision: prior.precision, mean: prior.mean }, d, block);
+    const full = fullDataFit(design, settings, together.flat());
     const cov = choleskyInverse(full.choleskyFactor, d);
     for (let i = 0; i < d; i++) {
       const sd = Math.sqrt(cov[i * d + i]);
