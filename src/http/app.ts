@@ -77,7 +77,7 @@ export function createApp(services: Services, options: AppOptions = {}): express
   admin.use(requireAdmin(services.auth));
   admin.use(express.json({ limit: adminLimit, strict: true }));
   admin.get("/session", (_req, res) => {
-    res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey });
+    res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey, defaultSettings: services.defaultSettings });
   });
   admin.post("/definitions/check", async (req, res) => {
     res.json(await services.pages.checkDefinition(parse(definitionCheckSchema, req.body)));

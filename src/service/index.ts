@@ -3,6 +3,7 @@
  * serving cache (kept current by fold and edit events, polling, and LISTEN on PostgreSQL), the
  * fold loop, and the page, pick, outcome, report, export, auth and demo services.
  */
+import { defaultSettings, type PageSettings } from "../model/index.ts";
 import type { Database } from "../store/database.ts";
 import { readiness } from "../store/migrator.ts";
 import { WriteBatcher } from "./writeBatcher.ts";
@@ -41,6 +42,8 @@ export interface Services {
   auth: AuthService;
   demo: DemoTraffic;
   demoPageKey: string;
+  /** The engine's default page settings, for clients that show them (the console's placeholders). */
+  defaultSettings: PageSettings;
   seedDemo(): Promise<boolean>;
   ready(): Promise<{ ready: boolean; detail: string }>;
   close(): Promise<void>;
@@ -65,7 +68,7 @@ export async function createServices(db: Database, options: ServiceOptions = {})
   if (options.foldLoop !== false) folds.start(options.foldTickMs ?? 1000);
 
   return {
-    db, batcher, serving, folds, pages, picks, outcomes, reports, exports, auth, demo, demoPageKey: DEMO_PAGE_KEY,
+    db, batcher, serving, folds, pages, picks, outcomes, reports, exports, auth, demo, demoPageKey: DEMO_PAGE_KEY, defaultSettings,
     seedDemo: () => seedDemo(db.pool, pages),
     ready: () => readiness(db.pool),
     async close() {

@@ -4,6 +4,7 @@
  * the WHATWG Fetch standard (preflight = OPTIONS with Access-Control-Request-*), CSV per RFC 4180.
  */
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { parseSettings } from "../../src/model/index.ts";
 import { forEachDatabase } from "../support/databases.ts";
 import { startHarness, testPage, type Harness } from "./harness.ts";
 
@@ -30,6 +31,8 @@ forEachDatabase("API routes", (open) => {
     const r = await h.admin("GET", "/session");
     expect(r.status).toBe(200);
     expect(r.body).toMatchObject({ ok: true, scope: "admin" });
+    // the defaults the console shows are the engine's own (one source, no copies in the console)
+    expect(r.body.defaultSettings).toEqual(parseSettings({}));
   });
 
   it("checks a definition without saving it", async () => {

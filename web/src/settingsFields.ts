@@ -1,54 +1,55 @@
 /**
- * The page settings the console offers, with the words a marketer needs beside each. Names and
- * defaults follow the page settings API; the server validates and its message is shown as is.
+ * The page settings the console offers, with the words a marketer needs beside each. Names follow
+ * the page settings API; the defaults shown as placeholders come from the server (GET /session),
+ * which also validates, and its message is shown as is.
  */
+import { api } from "./api.ts";
 import { h, uid } from "./dom.ts";
 import { pct } from "./format.ts";
-import type { Settings } from "./types.ts";
+import type { SessionInfo, Settings } from "./types.ts";
 
 interface Field {
   name: string;
   label: string;
   unit: "hours" | "seconds" | "days" | "share" | "count" | "log-odds";
-  fallback: number | null;
   help: string;
   advanced?: boolean;
 }
 
 export const settingFields: Field[] = [
-  { name: "attributionWindowHours", label: "Attribution window", unit: "hours", fallback: 24,
+  { name: "attributionWindowHours", label: "Attribution window", unit: "hours",
     help: "A conversion counts when it is reported within this many hours of the visit." },
-  { name: "explorationFloor", label: "Exploration floor", unit: "share", fallback: 0.005,
+  { name: "explorationFloor", label: "Exploration floor", unit: "share",
     help: "Share of traffic always spread over every combination still in play, so nothing is written off too early." },
-  { name: "baselineShare", label: "Baseline share", unit: "share", fallback: 0.01,
+  { name: "baselineShare", label: "Baseline share", unit: "share",
     help: "Share of traffic kept on the baseline combination, to measure real lift against it." },
-  { name: "settleProbability", label: "Settle when the leader's chance of being best reaches", unit: "share", fallback: 0.95,
+  { name: "settleProbability", label: "Settle when the leader's chance of being best reaches", unit: "share",
     help: "A segment settles once its leader is this likely to be the best combination…" },
-  { name: "settleLossFraction", label: "…or when the expected loss falls to", unit: "share", fallback: 0.01,
+  { name: "settleLossFraction", label: "…or when the expected loss falls to", unit: "share",
     help: "…or once stopping now would cost at most this fraction of the leader's conversion rate." },
-  { name: "halfLifeDays", label: "Forget old evidence with a half-life of", unit: "days", fallback: null,
+  { name: "halfLifeDays", label: "Forget old evidence with a half-life of", unit: "days",
     help: "Leave empty to keep all evidence. With a half-life, older visits weigh less so a changing audience is explored again." },
-  { name: "assignmentHours", label: "Keep a visitor on the same combination for", unit: "hours", fallback: 720,
+  { name: "assignmentHours", label: "Keep a visitor on the same combination for", unit: "hours",
     help: "A returning visitor sees the same page for this long.", advanced: true },
-  { name: "foldIntervalSeconds", label: "Update the model every", unit: "seconds", fallback: 3600,
+  { name: "foldIntervalSeconds", label: "Update the model every", unit: "seconds",
     help: "How often finished visits are added to the model and traffic is re-balanced.", advanced: true },
-  { name: "retireProbability", label: "Retire a combination below a chance of being best of", unit: "share", fallback: 0.001,
+  { name: "retireProbability", label: "Retire a combination below a chance of being best of", unit: "share",
     help: "…and only when even its best plausible rate is below the leader's worst plausible rate.", advanced: true },
-  { name: "retireAfterFolds", label: "…for this many updates in a row", unit: "count", fallback: 3,
+  { name: "retireAfterFolds", label: "…for this many updates in a row", unit: "count",
     help: "Guards against retiring on one unlucky update.", advanced: true },
-  { name: "segmentSpread", label: "How far segments may differ", unit: "log-odds", fallback: 0.1,
+  { name: "segmentSpread", label: "How far segments may differ", unit: "log-odds",
     help: "Prior spread of a segment around the pooled model. Smaller = segments borrow more from each other.", advanced: true },
-  { name: "priorMainScale", label: "Typical effect of one level", unit: "log-odds", fallback: 0.25,
+  { name: "priorMainScale", label: "Typical effect of one level", unit: "log-odds",
     help: "Prior spread of a level's effect; one page element rarely moves conversion by more than this.", advanced: true },
-  { name: "priorInteractionScale", label: "Typical size of an interaction", unit: "log-odds", fallback: 0.1,
+  { name: "priorInteractionScale", label: "Typical size of an interaction", unit: "log-odds",
     help: "Prior spread of a pair effect; usually smaller than a main effect.", advanced: true },
-  { name: "priorInterceptMean", label: "Expected baseline conversion", unit: "log-odds", fallback: -3,
+  { name: "priorInterceptMean", label: "Expected baseline conversion", unit: "log-odds",
     help: "Prior centre of the baseline rate in log-odds (−3 ≈ 4.7 %).", advanced: true },
-  { name: "priorInterceptScale", label: "Uncertainty about the baseline", unit: "log-odds", fallback: 2,
+  { name: "priorInterceptScale", label: "Uncertainty about the baseline", unit: "log-odds",
     help: "Prior spread of the baseline rate in log-odds; wide enough for any realistic rate.", advanced: true },
-  { name: "samples", label: "Posterior samples per update", unit: "count", fallback: 1000,
+  { name: "samples", label: "Posterior samples per update", unit: "count",
     help: "More samples give smoother allocations at more computing cost.", advanced: true },
-  { name: "maxSegments", label: "Most segments learned separately", unit: "count", fallback: 200,
+  { name: "maxSegments", label: "Most segments learned separately", unit: "count",
     help: "Beyond this, new segments are served from the pooled model.", advanced: true },
 ];
 
@@ -68,6 +69,7 @@ export interface SettingsForm {
  */
 export function settingsForm(current: Settings | null, onChange: () => void): SettingsForm {
   const inputs = new Map<string, HTMLInputElement>();
+  const refreshers = new Map<string, () => void>();
   const row = (field: Field) => {
     const id = uid(`setting-${field.name}`);
     const helpId = `${id}-help`;
@@ -79,7 +81,6 @@ export function settingsForm(current: Settings | null, onChange: () => void): Se
       type: "text",
       inputmode: "decimal",
       "data-field": `settings.${field.name}`,
-      placeholder: field.fallback === null ? "no forgetting" : String(field.fallback),
       value: startValue === undefined || startValue === null ? "" : String(startValue),
       "aria-describedby": `${helpId} ${echoId}`,
     });
@@ -94,6 +95,7 @@ export function settingsForm(current: Settings | null, onChange: () => void): Se
     });
     refresh();
     inputs.set(field.name, input);
+    refreshers.set(field.name, refresh);
     const unit = unitWords[field.unit];
     return h(
       "div",
@@ -114,6 +116,17 @@ export function settingsForm(current: Settings | null, onChange: () => void): Se
       h("summary", null, "More settings: stickiness, update rhythm, retiring, priors"),
       h("div", { class: "settings-grid" }, settingFields.filter((f) => f.advanced).map(row)),
     ),
+  );
+  // The server's defaults become the placeholders of empty fields (one source of the defaults).
+  api<SessionInfo>("GET", "/session").then(
+    ({ defaultSettings }) => {
+      for (const [name, input] of inputs) {
+        const value = defaultSettings[name];
+        input.placeholder = value === null ? "no forgetting" : value === undefined ? "" : String(value);
+        refreshers.get(name)!();
+      }
+    },
+    () => {}, // placeholders are a convenience; api() already handles a lost session
   );
   return {
     element,

@@ -144,4 +144,4 @@ export interface ExportJson {
   }[];
 }
 
-export interface SessionInfo { ok: boolean; scope: string; demoPage: string | null }
+export interface SessionInfo { ok: boolean; scope: string; demoPage: string | null; defaultSettings: Settings }
