@@ -22,7 +22,7 @@ import { checkout, inTransaction, release, type Queryable } from "../store/repos
 import { loadPageById } from "../store/repositories/pages.ts";
 import {
   databaseNow, dueForFold, foldPageRow, insertAllocations, insertFoldLog, insertSnapshot, loadRetired, loadSnapshot,
-  matureAndAggregate, maturedRows, pruneSnapshots, releaseFoldSessionLock, replaceRetired, segmentKeys, setModelVersion,
+  markDueAndAggregate, dueRows, pruneSnapshots, releaseFoldSessionLock, replaceRetired, segmentKeys, setModelVersion,
   thinAllocationHistory, touchFold, tryFoldLock, tryFoldSessionLock, type AggregateRow, type RetiredRow,
 } from "../store/repositories/folds.ts";
 import { designOf, servable, settingsOf } from "./definition.ts";
@@ -116,7 +116,7 @@ function cycleInput(inputs: FoldInputs, rows: AggregateRow[]): FoldCycleInput {
 }
 
 /** Stores one fold's results as version + 1 (inside the transaction that marked its picks). */
-async function writeResults(client: PoolClient, inputs: FoldInputs, input: FoldCycleInput, output: FoldCycleOutput, matured: AggregateRow[], started: number, notify: boolean): Promise<FoldResult> {
+async function writeResults(client: PoolClient, inputs: FoldInputs, input: FoldCycleInput, output: FoldCycleOutput, rows: AggregateRow[], started: number, notify: boolean): Promise<FoldResult> {
   const { pageId, now } = inputs;
   const version = inputs.version + 1;
   await insertSnapshot(client, pageId, version, serializeState(output.state), output.summaries, now);
@@ -124,7 +124,7 @@ async function writeResults(client: PoolClient, inputs: FoldInputs, input: FoldC
   await replaceRetired(client, pageId, output.retired.map(entryToRetired));
   await setModelVersion(client, pageId, version, now);
   const picks = input.rows.reduce((s, r) => s + r.n, 0);
-  const dropped = matured.reduce((s, r) => s + r.n, 0) - picks;
+  const dropped = rows.reduce((s, r) => s + r.n, 0) - picks;
   const millis = performance.now() - started;
   await insertFoldLog(client, pageId, version, picks, millis, now);
   await pruneSnapshots(client, pageId, version, SNAPSHOTS_KEPT);
@@ -143,9 +143,9 @@ export async function foldInTransaction(client: PoolClient, pageId: number, cont
   if (!read) return { folded: false, page: null, reason: "missing" };
   const { inputs } = read;
   const started = performance.now();
-  const matured = inputs.status === "paused" ? [] : await matureAndAggregate(client, pageId, inputs.now, inputs.version + 1);
-  const input = cycleInput(inputs, matured);
-  return writeResults(client, inputs, input, await context.compute(input), matured, started, context.notify);
+  const rows = inputs.status === "paused" ? [] : await markDueAndAggregate(client, pageId, inputs.now, inputs.version + 1);
+  const input = cycleInput(inputs, rows);
+  return writeResults(client, inputs, input, await context.compute(input), rows, started, context.notify);
 }
 
 const sameRows = (a: AggregateRow[], b: AggregateRow[]) =>
@@ -197,13 +197,13 @@ export class FoldLoop extends EventEmitter {
     const { inputs, due } = read;
     if (!force && !due.due) return { folded: false, page: inputs.key, reason: due.reason };
     const started = performance.now();
-    const matured = inputs.status === "paused" ? [] : await maturedRows(q, pageId, inputs.now);
-    if (!force && matured.length === 0 && inputs.settings.halfLifeDays === null) {
+    const rows = inputs.status === "paused" ? [] : await dueRows(q, pageId, inputs.now);
+    if (!force && rows.length === 0 && inputs.settings.halfLifeDays === null) {
       // Nothing new and no forgetting: the posterior would not move.
       await touchFold(q, pageId, inputs.now);
       return { folded: false, page: inputs.key, reason: "nothing-new" };
     }
-    const input = cycleInput(inputs, matured);
+    const input = cycleInput(inputs, rows);
     const output = await this.context.compute(input);
     const commit = async (client: PoolClient): Promise<FoldResult> => {
       if (!(await tryFoldLock(client, pageId))) return { folded: false, page: inputs.key, reason: "locked" };
@@ -211,9 +211,9 @@ export class FoldLoop extends EventEmitter {
       if (!row || row.modelVersion !== inputs.version || (row.status === "paused") !== (inputs.status === "paused")) {
         return { folded: false, page: inputs.key, reason: "raced" };
       }
-      const marked = inputs.status === "paused" ? [] : await matureAndAggregate(client, pageId, inputs.now, inputs.version + 1);
-      if (!sameRows(marked, matured)) throw new RacedFold();
-      return writeResults(client, inputs, input, output, matured, started, this.context.notify);
+      const marked = inputs.status === "paused" ? [] : await markDueAndAggregate(client, pageId, inputs.now, inputs.version + 1);
+      if (!sameRows(marked, rows)) throw new RacedFold();
+      return writeResults(client, inputs, input, output, rows, started, this.context.notify);
     };
     try {
       return session ? await transactionOn(session, commit) : await inTransaction(this.pool, commit);
@@ -266,7 +266,7 @@ export class FoldLoop extends EventEmitter {
   }
 }
 
-/** Picks matured or changed between reading and committing: discard this fold, fold again next pass. */
+/** Trials or conversions came due or changed between reading and committing: discard this fold, fold again next pass. */
 class RacedFold extends Error {}
 
 async function transactionOn<T>(client: PoolClient, work: (client: PoolClient) => Promise<T>): Promise<T> {

@@ -68,7 +68,7 @@ const TRIAL = "(state = 'open' AND created_at <= $2)";
 const CONVERSION = `(converted_at <= $2 AND conversion_folded_version IS NULL AND (state = 'folded' OR ${TRIAL}))`;
 
 /** The trials and conversions due by `cutoff`, aggregated by (segment, combination); reads only. */
-export async function maturedRows(q: Queryable, pageId: number, cutoff: Date): Promise<AggregateRow[]> {
+export async function dueRows(q: Queryable, pageId: number, cutoff: Date): Promise<AggregateRow[]> {
   const { rows } = await q.query<AggregateRow>(
     `SELECT coalesce(s.key, '*') AS segment, p.combination, count(*) FILTER (WHERE p.trial)::int AS n, count(*) FILTER (WHERE p.conversion)::int AS k
      FROM (SELECT segment_id, combination, ${TRIAL} AS trial, ${CONVERSION} AS conversion
@@ -82,12 +82,12 @@ export async function maturedRows(q: Queryable, pageId: number, cutoff: Date): P
 /**
  * Marks the trials and conversions due by `cutoff` as folded into `version` (one UPDATE, so a
  * pick's trial and its conversion can land in the same fold) and returns them aggregated like
- * maturedRows. Runs inside the fold's commit transaction, so the marks and the new snapshot commit
+ * dueRows. Runs inside the fold's commit transaction, so the marks and the new snapshot commit
  * together or not at all: no trial or conversion is ever folded twice.
  */
-export async function matureAndAggregate(q: Queryable, pageId: number, cutoff: Date, version: number): Promise<AggregateRow[]> {
+export async function markDueAndAggregate(q: Queryable, pageId: number, cutoff: Date, version: number): Promise<AggregateRow[]> {
   const { rows } = await q.query<AggregateRow>(
-    `WITH matured AS (
+    `WITH due AS (
        UPDATE pick SET
          state = CASE WHEN ${TRIAL} THEN 'folded' ELSE state END,
          folded_version = CASE WHEN ${TRIAL} THEN $3 ELSE folded_version END,
@@ -95,7 +95,7 @@ export async function matureAndAggregate(q: Queryable, pageId: number, cutoff: D
        WHERE page_id = $1 AND (${TRIAL} OR ${CONVERSION})
        RETURNING segment_id, combination, folded_version = $3 AS trial, conversion_folded_version IS NOT DISTINCT FROM $3 AS conversion)
      SELECT coalesce(s.key, '*') AS segment, m.combination, count(*) FILTER (WHERE m.trial)::int AS n, count(*) FILTER (WHERE m.conversion)::int AS k
-     FROM matured m LEFT JOIN segment s ON s.id = m.segment_id
+     FROM due m LEFT JOIN segment s ON s.id = m.segment_id
      GROUP BY 1, 2 ORDER BY 1, 2`,
     [pageId, cutoff, version]);
   return rows;
