@@ -25,6 +25,7 @@ export type { FoldRow } from "./fold.ts";
 export { foldCycle, foldState, POOLED, type FoldCycleInput, type FoldCycleOutput } from "./foldCycle.ts";
 export { pickFrom, propensityOf, type Allocation } from "./allocation.ts";
 export { combinationRates } from "./combinationRates.ts";
+export { quantileInPlace } from "./quantile.ts";
 export type { RetiredEntry } from "./retirement.ts";
 export type { CombinationSummary, FactorEffect, RateInterval, SegmentSummary } from "./summary.ts";
 export { sigmoid } from "./logistic.ts";
