@@ -19,6 +19,7 @@ import {
   initialState,
   parseSettings,
   pickFrom,
+  quantileInPlace,
   type Allocation,
   type Design,
   type FoldRow,
@@ -57,9 +58,8 @@ export interface BenchResult {
 }
 
 function figure(values: number[]): Figure {
-  const sorted = values.slice().sort((a, b) => a - b);
-  const rank = (q: number) => sorted[Math.min(sorted.length - 1, Math.ceil(q * sorted.length) - 1)];
-  return { median: rank(0.5), p99: rank(0.99) };
+  const copy = Float64Array.from(values);
+  return { median: quantileInPlace(copy, 0.5), p99: quantileInPlace(copy, 0.99) };
 }
 
 function time(runs: number, warmup: number, work: (run: number) => void): number[] {

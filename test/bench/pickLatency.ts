@@ -15,6 +15,7 @@ import { tmpdir, loadavg, cpus } from "node:os";
 import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { parseArgs } from "node:util";
+import { quantileInPlace } from "../../src/model/index.ts";
 
 const { values } = parseArgs({
   options: {
@@ -90,11 +91,10 @@ async function runServer(): Promise<void> {
     if (code !== 0) throw new Error(`the benchmark client failed (exit ${code})`);
     const result = JSON.parse(output) as { sequential: number[]; sticky: number[]; concurrent: number[]; throughput: number };
 
-    const quantile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.floor(q * sorted.length))];
+    const quantile = (values: number[], q: number) => quantileInPlace(Float64Array.from(values), q);
     const line = (label: string, ms: number[]) => {
-      const sorted = ms.slice().sort((a, b) => a - b);
       const mean = ms.reduce((s, x) => s + x, 0) / ms.length;
-      console.log(`${label.padEnd(34)} n=${String(ms.length).padStart(5)}  median ${quantile(sorted, 0.5).toFixed(2)} ms  p95 ${quantile(sorted, 0.95).toFixed(2)} ms  p99 ${quantile(sorted, 0.99).toFixed(2)} ms  mean ${mean.toFixed(2)} ms`);
+      console.log(`${label.padEnd(34)} n=${String(ms.length).padStart(5)}  median ${quantile(ms, 0.5).toFixed(2)} ms  p95 ${quantile(ms, 0.95).toFixed(2)} ms  p99 ${quantile(ms, 0.99).toFixed(2)} ms  mean ${mean.toFixed(2)} ms`);
     };
     console.log(`facetwise pick latency over loopback HTTP — ${db.kind === "embedded" ? "embedded database (PGlite)" : "PostgreSQL"}, node ${process.version}, ` +
       `${cpus().length} CPUs, load average ${loadavg()[0].toFixed(1)}`);

@@ -2,7 +2,6 @@ import { CholeskyDecomposition, inverse, Matrix } from "ml-matrix";
 import { describe, expect, it } from "vitest";
 import { createRng } from "../../src/model/index.ts";
 import { cholesky, choleskyInverse, choleskySolve, inverseDiagonal } from "../../src/model/linalg.ts";
-import { quantileInPlace } from "../../src/model/quantile.ts";
 
 /** A random symmetric positive-definite matrix A = BᵀB + I. */
 function spd(d: number, seed: number): Float64Array {
@@ -41,16 +40,5 @@ describe("dense SPD linear algebra agrees with ml-matrix (reference library)", (
 
   it("returns null for a matrix that is not positive definite", () => {
     expect(cholesky(Float64Array.from([1, 2, 2, 1]), 2)).toBeNull();
-  });
-});
-
-describe("sample quantiles", () => {
-  it("follow Hyndman & Fan definition 7 (linear interpolation, as R's default quantile type)", () => {
-    // For 1..10: the 0.25 quantile is 1 + 0.25·9 = 3.25, the 0.975 quantile is 1 + 0.975·9 = 9.775.
-    const xs = () => Float64Array.from([7, 3, 10, 1, 5, 9, 2, 8, 6, 4]);
-    expect(quantileInPlace(xs(), 0.25)).toBeCloseTo(3.25, 12);
-    expect(quantileInPlace(xs(), 0.975)).toBeCloseTo(9.775, 12);
-    expect(quantileInPlace(xs(), 0)).toBe(1);
-    expect(quantileInPlace(xs(), 1)).toBe(10);
   });
 });
