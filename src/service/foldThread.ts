@@ -6,7 +6,7 @@
  */
 import { Worker } from "node:worker_threads";
 import type { FoldCycleInput, FoldCycleOutput } from "../model/index.ts";
-import { FacetwiseError, type ErrorCode } from "../errors.ts";
+import { receiveError, tsWorker, type SentError } from "../worker.ts";
 
 interface Pending { resolve(output: FoldCycleOutput): void; reject(error: unknown): void }
 
@@ -25,15 +25,14 @@ export class FoldThread {
   }
 
   private start(): Worker {
-    const worker = new Worker(new URL("./foldThread.boot.mjs", import.meta.url));
+    const worker = tsWorker(new URL("./foldThread.worker.ts", import.meta.url));
     worker.unref();
-    worker.on("message", (message: { id: number; output?: FoldCycleOutput; error?: { name?: string; message?: string; code?: string; params?: Record<string, string | number>; field?: string } }) => {
+    worker.on("message", (message: { id: number; output?: FoldCycleOutput; error?: SentError }) => {
       const waiting = this.pending.get(message.id);
       if (!waiting) return;
       this.pending.delete(message.id);
       if (message.output) return waiting.resolve(message.output);
-      const e = message.error ?? {};
-      waiting.reject(e.name === "FacetwiseError" && e.code ? new FacetwiseError(e.code as ErrorCode, e.params, e.field) : new Error(e.message ?? "fold failed"));
+      waiting.reject(receiveError(message.error ?? { message: "fold failed" }));
     });
     const fail = (error: unknown) => {
       if (this.worker === worker) this.worker = null;

@@ -4,12 +4,12 @@
  */
 import { parentPort } from "node:worker_threads";
 import { foldCycle, type FoldCycleInput } from "../model/index.ts";
+import { sendError } from "../worker.ts";
 
 parentPort!.on("message", (message: { id: number; input: FoldCycleInput }) => {
   try {
     parentPort!.postMessage({ id: message.id, output: foldCycle(message.input) });
   } catch (error) {
-    const e = error as { name?: string; message?: string; code?: string; params?: unknown; field?: string };
-    parentPort!.postMessage({ id: message.id, error: { name: e.name, message: e.message, code: e.code, params: e.params, field: e.field } });
+    parentPort!.postMessage({ id: message.id, error: sendError(error) });
   }
 });

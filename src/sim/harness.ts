@@ -3,17 +3,10 @@
  * scenario for `simulate`, R drawn scenarios for `plan`) in parallel on worker threads, one per
  * core, and returns the results in task order, so a report depends only on the seeds, never on
  * which thread finished first.
- *
- * Workers load TypeScript through tsx's `tsImport` API from a small bootstrap: on Node 20 a worker
- * does not inherit the main thread's loader hooks, and `execArgv: ["--import", "tsx"]` was
- * measured not to help (ERR_UNKNOWN_FILE_EXTENSION for the worker's .ts entry).
+ * Workers load TypeScript through src/worker.ts.
  */
-import { createRequire } from "node:module";
 import { availableParallelism } from "node:os";
-import { dirname, join } from "node:path";
-import { pathToFileURL } from "node:url";
-import { Worker } from "node:worker_threads";
-import { FacetwiseError, type ErrorCode } from "../errors.ts";
+import { receiveError, tsWorker } from "../worker.ts";
 import { runSimulation, type RunOptions, type RunResult } from "./runSimulation.ts";
 import type { Scenario } from "./scenario.ts";
 import { setup } from "./setup.ts";
@@ -34,14 +27,6 @@ export interface HarnessOptions extends Omit<RunOptions, "seed" | "onSlice"> {
 /** Seed of run `run` for a command's seed: distinct, reproducible streams. */
 export function runSeed(seed: number, run: number): number {
   return seed * 100_003 + run;
-}
-
-/** A worker that imports `entry` (a .ts module URL) through tsx. */
-function tsWorker(entry: URL, workerData: unknown): Worker {
-  const tsxRoot = dirname(createRequire(import.meta.url).resolve("tsx/package.json"));
-  const api = pathToFileURL(join(tsxRoot, "dist", "esm", "api", "index.mjs")).href;
-  const code = `import(${JSON.stringify(api)}).then((tsx) => tsx.tsImport(${JSON.stringify(entry.href)}, ${JSON.stringify(entry.href)}))`;
-  return new Worker(code, { eval: true, workerData });
 }
 
 export async function runHarness(tasks: Task[], options: HarnessOptions): Promise<RunResult[]> {
@@ -79,12 +64,7 @@ export async function runHarness(tasks: Task[], options: HarnessOptions): Promis
             } else {
               failed = true;
               void worker.terminate();
-              const { code, params, field, message: text } = message.error;
-              reject(
-                code
-                  ? new FacetwiseError(code as ErrorCode, params as Record<string, string>, field)
-                  : new Error(text),
-              );
+              reject(receiveError(message.error));
             }
           });
           worker.on("error", (error) => {

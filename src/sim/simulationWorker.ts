@@ -7,11 +7,12 @@ import { parentPort, workerData } from "node:worker_threads";
 import type { Task } from "./harness.ts";
 import { runSimulation, type RunOptions } from "./runSimulation.ts";
 import { setup, type Setup } from "./setup.ts";
+import { sendError, type SentError } from "../worker.ts";
 
 export type WorkerMessage =
   | { type: "progress"; index: number; done: number }
   | { type: "result"; index: number; result: ReturnType<typeof runSimulation> }
-  | { type: "error"; index: number; error: { message: string; code?: string; params?: unknown; field?: string } };
+  | { type: "error"; index: number; error: SentError };
 
 const options = workerData as Omit<RunOptions, "seed" | "onSlice">;
 const port = parentPort!;
@@ -29,11 +30,6 @@ port.on("message", ({ index, task }: { index: number; task: Task }) => {
     });
     port.postMessage({ type: "result", index, result } satisfies WorkerMessage);
   } catch (error) {
-    const e = error as { message?: string; code?: string; params?: unknown; field?: string };
-    port.postMessage({
-      type: "error",
-      index,
-      error: { message: String(e.message ?? error), code: e.code, params: e.params, field: e.field },
-    } satisfies WorkerMessage);
+    port.postMessage({ type: "error", index, error: sendError(error) } satisfies WorkerMessage);
   }
 });
