@@ -12,6 +12,7 @@
  * only the removed coefficient carried is thereby dropped. New features start with no
  * information, i.e. with their prior. Retirement counters restart.
  */
+import { FacetwiseError } from "../errors.ts";
 import type { Design } from "./design.ts";
 import { choleskySolve, factorSpd } from "./linalg.ts";
 import type { PageSettings } from "./settings.ts";
@@ -63,10 +64,8 @@ function remapSite(site: Site, mapping: Int32Array, d: number, dNew: number): Si
     keep.forEach((j, c) => (lam[r * a + c] = site.lambda[i * d + j]));
   });
   const b = drop.length;
-  if (b > 0 && a > 0) {
-    const lbb = new Float64Array(b * b);
-    drop.forEach((i, r) => drop.forEach((j, c) => (lbb[r * b + c] = site.lambda[i * d + j])));
-    const chol = factorSpd(lbb, b, "remapping a segment's information");
+  const chol = b > 0 && a > 0 ? informationFactor(site, drop, d) : null;
+  if (chol) {
     // X = Λ_BB⁻¹ Λ_BA (b × a, solved column by column) and y = Λ_BB⁻¹ η_B.
     const x = new Float64Array(b * a);
     for (let c = 0; c < a; c++) {
@@ -94,6 +93,24 @@ function remapSite(site: Site, mapping: Int32Array, d: number, dNew: number): Si
     keep.forEach((j, c) => (out.lambda[ni * dNew + mapping[j]] = 0.5 * (lam[r * a + c] + lam[c * a + r])));
   });
   return out;
+}
+
+/**
+ * Cholesky factor of the dropped features' block Λ_BB, or null when that block carries too little
+ * information to factor even after factorSpd's repair (features seen in a handful of visits):
+ * then the features are cut rather than marginalised — what little they said is lost, but a page
+ * edit never fails on it.
+ */
+function informationFactor(site: Site, drop: number[], d: number): Float64Array | null {
+  const b = drop.length;
+  const lbb = new Float64Array(b * b);
+  drop.forEach((i, r) => drop.forEach((j, c) => (lbb[r * b + c] = site.lambda[i * d + j])));
+  try {
+    return factorSpd(lbb, b, "remapping a segment's information");
+  } catch (error) {
+    if (error instanceof FacetwiseError && error.code === "NUMERICAL_FAILURE") return null;
+    throw error;
+  }
 }
 
 export function remapState(state: ModelState, oldDesign: Design, newDesign: Design, _settings?: PageSettings): ModelState {

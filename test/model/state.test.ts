@@ -106,3 +106,27 @@ describe("remapState", () => {
     });
   });
 });
+
+describe("remapState with information it cannot marginalise", () => {
+  it("cuts dropped features whose block cannot be factored instead of failing the edit", () => {
+    // Page without interactions: features (intercept), a=a1, b=b1, b=b2. The site's block for
+    // b=b1, b=b2 is [[1, 2], [2, 1]], indefinite (eigenvalues 3 and −1), and no Cholesky factor
+    // exists even after factorSpd's repair (Golub & Van Loan 2013 §4.2: a symmetric matrix has one
+    // only if it is positive definite), so removing factor b must keep the surviving block as it
+    // was rather than throw NUMERICAL_FAILURE.
+    const levels = (f: string, n: number) => Array.from({ length: n }, (_, l) => ({ name: `${f}${l}` }));
+    const two = buildDesign({ factors: [{ name: "a", levels: levels("a", 2) }, { name: "b", levels: levels("b", 3) }], interactions: [] });
+    const one = buildDesign({ factors: [{ name: "a", levels: levels("a", 2) }], interactions: [] });
+    const state = initialState(two, settings);
+    const d = two.dimension;
+    const lambda = new Float64Array(d * d);
+    const set = (i: number, j: number, v: number) => { lambda[i * d + j] = v; lambda[j * d + i] = v; };
+    set(0, 0, 4); set(1, 1, 2); set(0, 1, 1);
+    set(2, 2, 1); set(3, 3, 1); set(2, 3, 2); set(0, 2, 0.5);
+    state.sites.set("s", { lambda, eta: Float64Array.from([1, 0.5, 0.2, 0.1]), visitors: 10, conversions: 1, folds: 1 });
+    const remapped = remapState(state, two, one, settings);
+    const site = remapped.sites.get("s")!;
+    expect(Array.from(site.lambda)).toEqual([4, 1, 1, 2]);
+    expect(Array.from(site.eta)).toEqual([1, 0.5]);
+  });
+});
