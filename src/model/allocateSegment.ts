@@ -1,22 +1,29 @@
 /**
  * One segment's allocation round: M posterior samples (sampling.ts), each sample's best allowed
  * combination (bestCombination.ts), the retirement rule (retirement.ts), the report figures
- * (summary.ts) and the served mixture (allocation.ts) — all from the same samples, so the
- * reported probability of being best is exactly the Thompson share that drives the allocation
- * (before the baseline share and the exploration floor are mixed in).
+ * (summary.ts) and the served mixture (allocation.ts) — all from the same draws.
+ *
+ * The report uses the draws as they are: the probability of being best is the share of draws of
+ * N(μ, Σ) a combination wins. The allocation uses them tempered, μ + α(θ − μ) ~ N(μ, α²Σ) with
+ * α = thompsonScale: with α = 1 this is plain Thompson sampling and the two shares coincide; α < 1
+ * sends less traffic to combinations that are only plausibly best. Shrinking the posterior's
+ * spread for the draws is the variant Chapelle & Li found to lower regret over plain Thompson
+ * sampling ("An Empirical Evaluation of Thompson Sampling", NIPS 2011, §4; cited from memory);
+ * facetwise's default comes from the simulator (settings.ts). A settled segment (summary.ts)
+ * stops exploring: its Thompson part goes to the leader alone, leaving the exploration floor and
+ * the baseline share (DESIGN.md "Settled").
  */
 import { type Allocation, frozenAllocation, mixAllocation } from "./allocation.ts";
 import { comboTable, scanByClimbing, scanEnumerated, scoresOf } from "./bestCombination.ts";
 import { combinationKey } from "./combinationKey.ts";
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
-import { sigmoid } from "./logistic.ts";
-import { quantileInPlace } from "./quantile.ts";
+import { linearPredictor } from "./linearPredictor.ts";
 import { updateRetirement, type RetiredEntry } from "./retirement.ts";
 import type { Rng } from "./rng.ts";
-import { drawSamples } from "./sampling.ts";
+import { drawSamples, temperDraws } from "./sampling.ts";
 import type { PageSettings } from "./settings.ts";
-import { type CombinationSummary, expectedLoss, factorEffects, rateFromScores, type SegmentSummary, settledStatus } from "./summary.ts";
+import { type CombinationSummary, expectedLoss, factorEffects, rateBounds, rateFromScores, type SegmentSummary, settledStatus } from "./summary.ts";
 
 export interface SegmentRoundInput {
   design: Design;
@@ -41,32 +48,41 @@ export interface SegmentRound {
 
 const TOP = 10;
 
-/** Candidates of one round: every allowed combination when listed, else the samples' winners. */
+/** Candidates of one round's report: every allowed combination when listed, else the samples' winners. */
 interface Candidates {
   keys: string[];
   combos: Combination[];
   probabilityBest: Float64Array;
-  thompson: Float64Array;
-  eligible: Uint8Array;
   /** Each sample's best linear predictor among all allowed combinations. */
   bestScore: Float64Array;
   /** Posterior-mean linear predictor, the tie-break of the ranking. */
   meanScore: Float64Array;
 }
 
+/** What the allocation serves: the Thompson share of each candidate over tempered draws, and which are eligible. */
+interface Served {
+  keys: string[];
+  thompson: Float64Array;
+  eligible: Uint8Array;
+}
+
 export function allocateSegment(input: SegmentRoundInput): SegmentRound {
   const { design, settings, segment, posterior, rng } = input;
   const d = design.dimension;
-  const stride = d + 1;
   const M = settings.samples;
   const samples = drawSamples(posterior, d, M, rng);
-  const meanTheta = new Float64Array(stride);
+  const meanTheta = new Float64Array(d + 1);
   meanTheta.set(posterior.mean);
   const activeIdx = new Int32Array(design.activeCount);
+  const scratch = new Float64Array(d);
+  const predictorOf = (c: Combination) => {
+    writeActiveFeatures(design, c, activeIdx, 0);
+    return linearPredictor(posterior, d, activeIdx, scratch);
+  };
   const scoresFor = (c: Combination): Float64Array => {
     writeActiveFeatures(design, c, activeIdx, 0);
     const out = new Float64Array(M);
-    scoresOf(activeIdx, 0, activeIdx.length, samples, M, stride, out);
+    scoresOf(activeIdx, 0, activeIdx.length, samples, M, out);
     return out;
   };
   const meanScoreOf = (c: Combination): number => {
@@ -80,21 +96,23 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
 
   let cand: Candidates;
   let order: number[];
+  let served: Served;
   let counters = new Map<string, number>();
   let newlyRetired: RetiredEntry[] = [];
   let reinstated = new Map<string, string>();
   if (design.enumerable) {
     const table = comboTable(design);
     const eligible = Uint8Array.from(table.keys, (k) => (input.active.has(k) ? 0 : 1));
-    let scan = scanEnumerated(table, samples, M, stride, eligible);
-    const probabilityBest = scan.countAll.map((x) => x / M);
     const meanScore = Float64Array.from(table.combos, meanScoreOf);
-    cand = { keys: table.keys, combos: table.combos, probabilityBest, thompson: probabilityBest, eligible, bestScore: scan.bestScore, meanScore };
+    const tempering = { scale: settings.thompsonScale, meanScore };
+    let scan = scanEnumerated(table, samples, M, eligible, tempering);
+    const probabilityBest = scan.countAll.map((x) => x / M);
+    cand = { keys: table.keys, combos: table.combos, probabilityBest, bestScore: scan.bestScore, meanScore };
     order = rank(cand);
     // Retirement needs the upper bound only of combinations that could be (or are) retired.
     const upper = new Float64Array(table.keys.length).fill(Infinity);
     table.keys.forEach((key, i) => {
-      if (probabilityBest[i] < settings.retireProbability || input.active.has(key)) upper[i] = sigmoid(quantileInPlace(scoresFor(table.combos[i]), 0.975));
+      if (probabilityBest[i] < settings.retireProbability || input.active.has(key)) upper[i] = rateBounds(predictorOf(table.combos[i])).upper;
     });
     const update = updateRetirement({
       segment,
@@ -102,7 +120,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
       probabilityBest,
       upper,
       leader: order[0],
-      leaderLower: sigmoid(quantileInPlace(scoresFor(table.combos[order[0]]), 0.025)),
+      leaderLower: rateBounds(predictorOf(table.combos[order[0]])).lower,
       counters: input.counters,
       active: input.active,
       settings,
@@ -114,29 +132,35 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
       // The eligible set changed: recount the Thompson shares over the new one.
       for (const r of newlyRetired) eligible[table.indexOfKey.get(r.combination)!] = 0;
       for (const key of reinstated.keys()) eligible[table.indexOfKey.get(key)!] = 1;
-      scan = scanEnumerated(table, samples, M, stride, eligible);
+      scan = scanEnumerated(table, samples, M, eligible, tempering);
     }
-    cand.thompson = scan.countEligible.map((x) => x / M);
+    served = { keys: table.keys, thompson: scan.countEligible.map((x) => x / M), eligible };
   } else {
     // Retirement needs every combination's bounds, so it applies to listed spaces only.
-    const scan = scanByClimbing(design, samples, M, stride, meanTheta, rng);
+    const scan = scanByClimbing(design, samples, M, meanTheta, rng);
     const probabilityBest = Float64Array.from(scan.winners, (w) => w.count / M);
     cand = {
       keys: scan.winners.map((w) => w.key),
       combos: scan.winners.map((w) => w.combination),
       probabilityBest,
-      thompson: probabilityBest,
-      eligible: new Uint8Array(scan.winners.length).fill(1),
       bestScore: scan.bestScore,
       meanScore: Float64Array.from(scan.winners, (w) => meanScoreOf(w.combination)),
     };
     order = rank(cand);
+    // Tempered draws need their own climb: the best combination of μ + α(θ − μ) is not θ's.
+    const alpha = settings.thompsonScale;
+    const tempered = alpha === 1 ? scan : scanByClimbing(design, temperDraws(samples, meanTheta, d, M, alpha), M, meanTheta, rng);
+    served = {
+      keys: tempered.winners.map((w) => w.key),
+      thompson: Float64Array.from(tempered.winners, (w) => w.count / M),
+      eligible: new Uint8Array(tempered.winners.length).fill(1),
+    };
   }
 
   const summarize = (c: Combination, key: string, probabilityBest: number): CombinationSummary => ({
     combination: key,
     probabilityBest,
-    rate: rateFromScores(scoresFor(c)),
+    rate: rateFromScores(scoresFor(c), predictorOf(c)),
   });
   const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], cand.probabilityBest[i]));
   const leader = top[0];
@@ -157,13 +181,14 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     effects: factorEffects(design, posterior),
   };
 
+  if (summary.status === "settled") served = onLeader(served, leader.combination);
   const allocation = input.frozen
     ? frozenAllocation(segment, leader.combination)
     : mixAllocation({
         segment,
-        keys: cand.keys,
-        thompson: cand.thompson,
-        eligible: cand.eligible,
+        keys: served.keys,
+        thompson: served.thompson,
+        eligible: served.eligible,
         baselineKey,
         baselineShare: settings.baselineShare,
         explorationFloor: settings.explorationFloor,
@@ -172,4 +197,15 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
           : { eligibleCount: design.allowedCount, factors: design.factors.map((f) => ({ name: f.name, levels: f.levels })), exclusions: design.exclusions, retired: [] },
       });
   return { allocation, summary, counters, newlyRetired, reinstated };
+}
+
+/** The Thompson part moved onto the leader alone (a settled segment keeps only the floor and the baseline share besides). */
+function onLeader(served: Served, leader: string): Served {
+  const at = served.keys.indexOf(leader);
+  if (at >= 0) return { ...served, thompson: Float64Array.from(served.keys, (_, i) => (i === at ? 1 : 0)) };
+  return {
+    keys: [...served.keys, leader],
+    thompson: Float64Array.from({ length: served.keys.length + 1 }, (_, i) => (i === served.keys.length ? 1 : 0)),
+    eligible: Uint8Array.from([...served.eligible, 1]),
+  };
 }

@@ -2,8 +2,9 @@
  * An allocation: the probability with which each combination is picked in one segment, and the
  * O(1) draw. The policy is the mixture
  *   π(c) = b·[c = baseline] + (1−b)·((1−e)·TS(c) + e·U(c)),
- * b = baselineShare, e = explorationFloor, TS = Thompson probabilities (share of posterior samples
- * in which c is the best non-retired allowed combination), U = uniform over the non-retired
+ * b = baselineShare, e = explorationFloor, TS = Thompson probabilities (share of tempered posterior
+ * draws μ + α(θ − μ), α = thompsonScale, in which c is the best non-retired allowed combination;
+ * allocateSegment.ts), U = uniform over the non-retired
  * allowed combinations. π(c) is stored exactly, so every logged propensity is the true
  * probability of the served combination (needed for inverse propensity scoring; Horvitz &
  * Thompson, JASA 47, 1952). A frozen allocation serves one combination with propensity 1.

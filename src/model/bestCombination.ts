@@ -19,12 +19,17 @@ import type { Rng } from "./rng.ts";
 /** Random starts per sample in addition to the posterior-mean optimum. */
 export const CLIMB_RESTARTS = 8;
 
-/** The allowed combinations of an enumerable design with their active features (cached per design). */
+/**
+ * The allowed combinations of an enumerable design with their active features (cached per design),
+ * in compressed-row form: combination c's features are idx[start[c]] … idx[start[c+1] − 1]. Only
+ * real features are kept — a feature at a factor's reference level is the zero slot and adds
+ * nothing — so a score costs about half the additions of the fixed-length feature list.
+ */
 export interface ComboTable {
   combos: Combination[];
   keys: string[];
+  start: Int32Array;
   idx: Int32Array;
-  m: number;
   indexOfKey: Map<string, number>;
 }
 
@@ -34,65 +39,88 @@ export function comboTable(design: Design): ComboTable {
   let table = tables.get(design);
   if (!table) {
     const combos = allowedCombinations(design);
-    const m = design.activeCount;
-    const idx = new Int32Array(combos.length * m);
-    combos.forEach((c, i) => writeActiveFeatures(design, c, idx, i * m));
+    const active = new Int32Array(design.activeCount);
+    const start = new Int32Array(combos.length + 1);
+    const features: number[] = [];
+    combos.forEach((c, i) => {
+      writeActiveFeatures(design, c, active, 0);
+      for (const j of active) if (j !== design.dimension) features.push(j);
+      start[i + 1] = features.length;
+    });
     const keys = combos.map((c) => combinationKey(design, c));
-    table = { combos, keys, idx, m, indexOfKey: new Map(keys.map((k, i) => [k, i])) };
+    table = { combos, keys, start, idx: Int32Array.from(features), indexOfKey: new Map(keys.map((k, i) => [k, i])) };
     tables.set(design, table);
   }
   return table;
 }
 
-/** Linear predictor xᵀθ of combination c's active features for every sample. */
-export function scoresOf(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, stride: number, out: Float64Array): void {
-  for (let s = 0, row = 0; s < count; s++, row += stride) {
-    let acc = 0;
-    for (let a = offset; a < offset + m; a++) acc += samples[row + idx[a]];
-    out[s] = acc;
+/** Linear predictor xᵀθ of combination c's active features for every draw (feature-major draws, sampling.ts). */
+export function scoresOf(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, out: Float64Array): void {
+  out.fill(0, 0, count);
+  for (let a = offset; a < offset + m; a++) {
+    const row = idx[a] * count;
+    for (let s = 0; s < count; s++) out[s] += samples[row + s];
   }
 }
 
 export interface EnumeratedScan {
-  /** Samples in which each combination is best among all allowed. */
+  /** Samples in which each combination is best among all allowed: its probability of being best. */
   countAll: Float64Array;
-  /** … best among the eligible (non-retired) ones: the Thompson allocation. */
+  /** Tempered samples in which each combination is best among the eligible (non-retired) ones: the Thompson allocation. */
   countEligible: Float64Array;
   /** Each sample's best linear predictor among all allowed. */
   bestScore: Float64Array;
 }
 
 /**
- * Scores every allowed combination for every sample (sample-major: one sample's coefficients stay
- * in cache while the combination table streams past).
+ * How the allocation's draws are tempered: a draw θ = μ + (θ − μ) becomes μ + scale·(θ − μ), a draw
+ * from N(μ, scale²Σ). A combination's tempered score is then meanScore + scale·(score − meanScore),
+ * so one pass over the combinations serves both the honest and the tempered argmax.
  */
-export function scanEnumerated(table: ComboTable, samples: Float64Array, count: number, stride: number, eligible: Uint8Array): EnumeratedScan {
+export interface Tempering {
+  scale: number;
+  /** Each combination's linear predictor at the posterior mean, xᵀμ. */
+  meanScore: Float64Array;
+}
+
+/**
+ * Scores every allowed combination for every draw, combination by combination: each score is a
+ * few additions of contiguous feature rows (feature-major draws), then one pass keeps each draw's
+ * best so far.
+ */
+export function scanEnumerated(table: ComboTable, samples: Float64Array, count: number, eligible: Uint8Array, tempering?: Tempering): EnumeratedScan {
   const n = table.combos.length;
-  const { m, idx } = table;
-  const countAll = new Float64Array(n);
-  const countEligible = new Float64Array(n);
-  const bestScore = new Float64Array(count);
-  for (let s = 0; s < count; s++) {
-    const row = s * stride;
-    let best = -Infinity;
-    let bestAt = 0;
-    let bestEligible = -Infinity;
-    let bestEligibleAt = -1;
-    for (let c = 0, a0 = 0; c < n; c++, a0 += m) {
-      let acc = 0;
-      for (let a = a0; a < a0 + m; a++) acc += samples[row + idx[a]];
-      if (acc > best) {
-        best = acc;
-        bestAt = c;
-      }
-      if (acc > bestEligible && eligible[c] === 1) {
-        bestEligible = acc;
-        bestEligibleAt = c;
+  const { start, idx } = table;
+  const scale = tempering?.scale ?? 1;
+  const meanScore = tempering?.meanScore ?? new Float64Array(n);
+  const bestScore = new Float64Array(count).fill(-Infinity);
+  const bestAt = new Int32Array(count);
+  const bestEligible = new Float64Array(count).fill(-Infinity);
+  const bestEligibleAt = new Int32Array(count).fill(-1);
+  const score = new Float64Array(count);
+  for (let c = 0; c < n; c++) {
+    scoresOf(idx, start[c], start[c + 1] - start[c], samples, count, score);
+    for (let s = 0; s < count; s++) {
+      if (score[s] > bestScore[s]) {
+        bestScore[s] = score[s];
+        bestAt[s] = c;
       }
     }
-    bestScore[s] = best;
-    countAll[bestAt]++;
-    if (bestEligibleAt >= 0) countEligible[bestEligibleAt]++;
+    if (eligible[c] !== 1) continue;
+    const m = meanScore[c];
+    for (let s = 0; s < count; s++) {
+      const t = scale === 1 ? score[s] : m + scale * (score[s] - m);
+      if (t > bestEligible[s]) {
+        bestEligible[s] = t;
+        bestEligibleAt[s] = c;
+      }
+    }
+  }
+  const countAll = new Float64Array(n);
+  const countEligible = new Float64Array(n);
+  for (let s = 0; s < count; s++) {
+    countAll[bestAt[s]]++;
+    if (bestEligibleAt[s] >= 0) countEligible[bestEligibleAt[s]]++;
   }
   return { countAll, countEligible, bestScore };
 }
@@ -113,30 +141,42 @@ function links(design: Design): FactorLinks[] {
   }));
 }
 
+/**
+ * One θ inside an array: feature j is at base + j·step (a row of the posterior mean: step 1; draw s
+ * of feature-major draws: base s, step M).
+ */
+interface ThetaView {
+  values: Float64Array;
+  base: number;
+  step: number;
+}
+
 /** θ's contribution of factor f at level l given the other factors' levels in c (main + its pairs). */
-function contribution(design: Design, link: FactorLinks, theta: Float64Array, base: number, f: number, l: number, c: Combination): number {
+function contribution(design: Design, link: FactorLinks, theta: ThetaView, f: number, l: number, c: Combination): number {
+  const { values, base, step } = theta;
   if (l === 0) return 0; // every feature involving a reference level is zero
-  let acc = theta[base + design.mainIndex[f][l]];
+  let acc = values[base + step * design.mainIndex[f][l]];
   for (const { p, other, first } of link.pairs) {
     const o = c[other];
     if (o === 0) continue;
     const j = design.pairs[p][1];
     const a = first ? l : o;
     const b = first ? o : l;
-    acc += theta[base + design.pairBase[p] + (a - 1) * (design.sizes[j] - 1) + (b - 1)];
+    acc += values[base + step * (design.pairBase[p] + (a - 1) * (design.sizes[j] - 1) + (b - 1))];
   }
   return acc;
 }
 
-function fullScore(design: Design, theta: Float64Array, base: number, c: Combination, scratch: Int32Array): number {
+function fullScore(design: Design, theta: ThetaView, c: Combination, scratch: Int32Array): number {
+  const { values, base, step } = theta;
   writeActiveFeatures(design, c, scratch, 0);
   let acc = 0;
-  for (let a = 0; a < scratch.length; a++) acc += theta[base + scratch[a]];
+  for (let a = 0; a < scratch.length; a++) acc += values[base + step * scratch[a]];
   return acc;
 }
 
-/** Coordinate ascent from c (modified in place) under sample θ at row `base`; returns the end score. */
-function climb(design: Design, fl: FactorLinks[], theta: Float64Array, base: number, c: Combination, scratch: Int32Array): number {
+/** Coordinate ascent from c (modified in place) under θ; returns the end score. */
+function climb(design: Design, fl: FactorLinks[], theta: ThetaView, c: Combination, scratch: Int32Array): number {
   const F = design.factors.length;
   let improved = true;
   let sweeps = 0;
@@ -145,10 +185,10 @@ function climb(design: Design, fl: FactorLinks[], theta: Float64Array, base: num
     for (let f = 0; f < F; f++) {
       const current = c[f];
       let bestLevel = current;
-      let best = contribution(design, fl[f], theta, base, f, current, c);
+      let best = contribution(design, fl[f], theta, f, current, c);
       for (let l = 0; l < design.sizes[f]; l++) {
         if (l === current) continue;
-        const v = contribution(design, fl[f], theta, base, f, l, c);
+        const v = contribution(design, fl[f], theta, f, l, c);
         if (v <= best) continue;
         c[f] = l;
         const allowed = matchesNoRule(fl[f].space, c);
@@ -164,7 +204,7 @@ function climb(design: Design, fl: FactorLinks[], theta: Float64Array, base: num
       }
     }
   }
-  return fullScore(design, theta, base, c, scratch);
+  return fullScore(design, theta, c, scratch);
 }
 
 export interface ClimbScan {
@@ -177,18 +217,19 @@ export interface ClimbScan {
  * Hill-climbing search of each sample's best allowed combination for spaces too large to list.
  * `meanTheta` (length d+1, last slot 0) seeds one start per sample with the posterior-mean optimum.
  */
-export function scanByClimbing(design: Design, samples: Float64Array, count: number, stride: number, meanTheta: Float64Array, rng: Rng, restarts = CLIMB_RESTARTS): ClimbScan {
+export function scanByClimbing(design: Design, samples: Float64Array, count: number, meanTheta: Float64Array, rng: Rng, restarts = CLIMB_RESTARTS): ClimbScan {
   const fl = links(design);
   const F = design.factors.length;
   const scratch = new Int32Array(design.activeCount);
   const next = () => rng.next();
   // Posterior-mean optimum, itself found with several restarts.
   let meanBest = design.baseline.slice();
-  let meanBestScore = climb(design, fl, meanTheta, 0, meanBest, scratch);
+  const mean: ThetaView = { values: meanTheta, base: 0, step: 1 };
+  let meanBestScore = climb(design, fl, mean, meanBest, scratch);
   const start = new Array<number>(F);
   for (let r = 0; r < 4 * restarts; r++) {
     if (!sampleAllowed(design, next, start)) break;
-    const score = climb(design, fl, meanTheta, 0, start, scratch);
+    const score = climb(design, fl, mean, start, scratch);
     if (score > meanBestScore) {
       meanBestScore = score;
       meanBest = start.slice();
@@ -198,12 +239,12 @@ export function scanByClimbing(design: Design, samples: Float64Array, count: num
   const bestScore = new Float64Array(count);
   const c = new Array<number>(F);
   for (let s = 0; s < count; s++) {
-    const base = s * stride;
+    const theta: ThetaView = { values: samples, base: s, step: count };
     let best = meanBest.slice();
-    let bestValue = climb(design, fl, samples, base, best, scratch);
+    let bestValue = climb(design, fl, theta, best, scratch);
     for (let r = 0; r < restarts; r++) {
       if (!sampleAllowed(design, next, c)) break;
-      const v = climb(design, fl, samples, base, c, scratch);
+      const v = climb(design, fl, theta, c, scratch);
       if (v > bestValue) {
         bestValue = v;
         best = c.slice();

@@ -1,12 +1,13 @@
 /**
- * The posterior conversion rate of any combinations in one segment (mean and 95% credible
- * interval of σ(xᵀθ) from M posterior samples, as in the summaries), for reports and exports that
+ * The posterior conversion rate of any combinations in one segment (mean of σ(xᵀθ) over M
+ * posterior samples and the exact 95% credible interval, as in the summaries), for reports and exports that
  * need more than the top ten. Segments without data of their own get the new-segment posterior.
  */
 import { parseCombinationKey } from "./combinationKey.ts";
 import { type Design, writeActiveFeatures } from "./design.ts";
 import { computePosteriors, segmentPosterior } from "./hierarchy.ts";
 import { scoresOf } from "./bestCombination.ts";
+import { linearPredictor } from "./linearPredictor.ts";
 import { createRng } from "./rng.ts";
 import { drawSamples } from "./sampling.ts";
 import type { PageSettings } from "./settings.ts";
@@ -23,12 +24,13 @@ export function combinationRates(input: { design: Design; settings: PageSettings
   const M = settings.samples;
   const samples = drawSamples(posterior, d, M, createRng(input.seed));
   const idx = new Int32Array(design.activeCount);
+  const scratch = new Float64Array(d);
   const out: Record<string, RateInterval> = {};
   combos.forEach((c, i) => {
     writeActiveFeatures(design, c, idx, 0);
     const scores = new Float64Array(M);
-    scoresOf(idx, 0, idx.length, samples, M, d + 1, scores);
-    out[input.combinations[i]] = rateFromScores(scores);
+    scoresOf(idx, 0, idx.length, samples, M, scores);
+    out[input.combinations[i]] = rateFromScores(scores, linearPredictor(posterior, d, idx, scratch));
   });
   return out;
 }

@@ -39,6 +39,11 @@ export interface FoldCycleInput {
   seed: number;
   /** Serve each segment's leader only. */
   frozen?: boolean;
+  /**
+   * false: leave out "*"'s allocation and summary unless a requested segment without a site needs
+   * them (the simulator never reads them; the server always wants them). Default true.
+   */
+  pooled?: boolean;
 }
 
 export interface FoldCycleOutput {
@@ -92,7 +97,8 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   const dominated = new Map(folded.state.dominated);
   const reinstatedBySegment = new Map<string, Map<string, string>>();
   const newlyRetired: RetiredEntry[] = [];
-  for (const segment of [POOLED, ...own]) {
+  const withPooled = input.pooled !== false || own.length < requested.length;
+  for (const segment of withPooled ? [POOLED, ...own] : own) {
     const round = allocateSegment({
       design,
       settings,

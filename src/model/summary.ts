@@ -1,6 +1,7 @@
 /**
  * Report maths for one segment's posterior samples: the conversion rate σ(xᵀθ) of a combination
- * (posterior mean and equal-tailed 95% credible interval from the samples), expected loss of
+ * (posterior mean from the samples, equal-tailed 95% credible interval exact from the Gaussian
+ * linear predictor, linearPredictor.ts), expected loss of
  * stopping on the leader E[max_c r(c) − r(leader)] (the "value remaining" criterion of
  * Scott, "Multi-armed bandit experiments in the online service economy", Applied Stochastic
  * Models in Business and Industry 31(1), 2015, §2.4), the settle rule of DESIGN.md, and factor
@@ -16,7 +17,7 @@ import type { Gaussian } from "./hierarchy.ts";
 import { inverseDiagonal } from "./linalg.ts";
 import { sigmoid } from "./logistic.ts";
 import { normalQuantile } from "./normalQuantile.ts";
-import { quantileInPlace } from "./quantile.ts";
+import type { LinearPredictor } from "./linearPredictor.ts";
 import type { PageSettings } from "./settings.ts";
 
 export interface RateInterval {
@@ -49,13 +50,19 @@ export interface SegmentSummary {
 
 const Z975 = normalQuantile(0.975);
 
-/** Posterior mean and 95% interval of σ(score) from the samples' linear predictors (reorders `scores`). */
-export function rateFromScores(scores: Float64Array): RateInterval {
+/** Equal-tailed 95% credible bounds of the rate σ(a), exact from the linear predictor's Gaussian posterior. */
+export function rateBounds(predictor: LinearPredictor): { lower: number; upper: number } {
+  return { lower: sigmoid(predictor.mean - Z975 * predictor.sd), upper: sigmoid(predictor.mean + Z975 * predictor.sd) };
+}
+
+/**
+ * Posterior mean of the rate σ(a) over the samples' linear predictors (E[σ(a)] has no closed form)
+ * and its exact 95% interval.
+ */
+export function rateFromScores(scores: Float64Array, predictor: LinearPredictor): RateInterval {
   let sum = 0;
   for (let i = 0; i < scores.length; i++) sum += sigmoid(scores[i]);
-  const lower = sigmoid(quantileInPlace(scores, 0.025));
-  const upper = sigmoid(quantileInPlace(scores, 0.975));
-  return { mean: sum / scores.length, lower, upper };
+  return { mean: sum / scores.length, ...rateBounds(predictor) };
 }
 
 /** E[max_c r(c) − r(leader)] from each sample's best and the leader's linear predictors. */

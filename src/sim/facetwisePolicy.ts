@@ -69,6 +69,7 @@ export function facetwisePolicy(options: FacetwiseOptions): FacetwisePolicy {
       segments: segmentNames,
       retired,
       seed: rng.int(2 ** 31),
+      pooled: false,
     });
     state = out.state;
     retired = out.retired;

@@ -15,11 +15,11 @@ function twoArmPosterior(m0: number, s0: number, m1: number, s1: number) {
 }
 
 describe("Thompson allocation", () => {
-  it("matches probability matching Φ(Δ/√(σ₁²+σ₂²)) for two independent Gaussian arms", () => {
+  it("matches probability matching Φ(Δ/√(σ₁²+σ₂²)) for two independent Gaussian arms (thompsonScale 1)", () => {
     // P(X1 > X0) for independent normals = Φ((m1−m0)/√(s0²+s1²)) (difference of normals);
     // reference values from jStat.normal.cdf. Monte-Carlo sd with M = 20,000 is ≤ 0.0036.
     const design = page([2]);
-    const settings = parseSettings({ samples: 20000, baselineShare: 0, explorationFloor: 0 });
+    const settings = parseSettings({ samples: 20000, baselineShare: 0, explorationFloor: 0, thompsonScale: 1 });
     const cases: [number, number, number, number][] = [[-3, 0.2, -2.9, 0.3], [-3, 0.1, -3.2, 0.15], [-2, 0.5, -2, 0.5]];
     cases.forEach(([m0, s0, m1, s1], i) => {
       const round = allocateSegment({ design, settings, segment: "s", posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(100 + i), now: 0, frozen: false, active: new Map(), counters: new Map() });
@@ -29,10 +29,29 @@ describe("Thompson allocation", () => {
     });
   });
 
+  it("tempers the Thompson share to Φ(Δ/(α√(σ₁²+σ₂²))) while reporting the untempered probability of being best", () => {
+    // Draws from N(μ, α²Σ) (Chapelle & Li, "An Empirical Evaluation of Thompson Sampling", NIPS
+    // 2011, §4 — scaling the posterior's spread; cited from memory): for two independent Gaussian
+    // arms P(X1 > X0) becomes Φ((m1−m0)/(α√(s0²+s1²))). The report keeps α = 1. Reference values
+    // from jStat.normal.cdf; Monte-Carlo sd with M = 20,000 is ≤ 0.0036.
+    const design = page([2]);
+    const key1 = combinationKey(design, [1]);
+    const [m0, s0, m1, s1] = [-3, 0.2, -2.9, 0.3];
+    const spread = Math.sqrt(s0 * s0 + s1 * s1);
+    for (const [alpha, seed] of [[0.5, 7], [0.25, 8]]) {
+      const settings = parseSettings({ samples: 20000, baselineShare: 0, explorationFloor: 0, thompsonScale: alpha });
+      const round = allocateSegment({ design, settings, segment: "s", posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(seed), now: 0, frozen: false, active: new Map(), counters: new Map() });
+      expect(Math.abs(propensityOf(round.allocation, key1) - jStat.normal.cdf((m1 - m0) / (alpha * spread), 0, 1))).toBeLessThan(4 * 0.0036);
+      const reported = round.summary.top.find((c) => c.combination === key1)!.probabilityBest;
+      expect(Math.abs(reported - jStat.normal.cdf((m1 - m0) / spread, 0, 1))).toBeLessThan(4 * 0.0036);
+    }
+  });
+
   it("mixes the baseline share and the exploration floor with known weights", () => {
     // π(c) = b·[baseline] + (1−b)·((1−e)·TS(c) + e/|eligible|) — the mixture definition (DESIGN.md).
     const design = page([3]);
-    const settings = parseSettings({ samples: 4000, baselineShare: 0.1, explorationFloor: 0.2 });
+    // thompsonScale 1: the Thompson share is then the reported probability of being best.
+    const settings = parseSettings({ samples: 4000, baselineShare: 0.1, explorationFloor: 0.2, thompsonScale: 1 });
     const posterior = { precision: Float64Array.from([25, 0, 0, 0, 25, 0, 0, 0, 25]), mean: Float64Array.from([-3, 0.3, 0.1]) };
     const round = allocateSegment({ design, settings, segment: "s", posterior: { ...posterior, chol: factorSpd(posterior.precision.slice(), 3, "test") }, rng: createRng(3), now: 0, frozen: false, active: new Map(), counters: new Map() });
     const ts = new Map(round.summary.top.map((c) => [c.combination, c.probabilityBest]));
@@ -44,6 +63,26 @@ describe("Thompson allocation", () => {
       total += propensityOf(round.allocation, key);
     }
     expect(total).toBeCloseTo(1, 12);
+  });
+
+  it("serves a settled segment's leader with everything but the floor and the baseline share", () => {
+    // DESIGN.md "Settled": a settled segment stops exploring and keeps only the exploration floor.
+    // l1 and l2 tie (sd 0.005 in log-odds each), so each is best in about half the draws, but the
+    // expected loss of stopping on either is far below 1% of its rate: settled by loss. Plain
+    // Thompson sampling would split the traffic between them.
+    const design = page([3]);
+    const settings = parseSettings({ samples: 2000, baselineShare: 0.1, explorationFloor: 0.2 });
+    const precision = Float64Array.from([40000, 0, 0, 0, 40000, 0, 0, 0, 40000]);
+    const posterior = { precision, mean: Float64Array.from([-3, 1.3, 1.3]), chol: factorSpd(precision.slice(), 3, "test") };
+    const round = allocateSegment({ design, settings, segment: "s", posterior, rng: createRng(5), now: 0, frozen: false, active: new Map(), counters: new Map() });
+    expect(round.summary.settledBy).toBe("loss");
+    expect(round.summary.leader.probabilityBest).toBeLessThan(0.7);
+    const leader = round.summary.leader.combination;
+    const other = [1, 2].map((l) => combinationKey(design, [l])).find((k) => k !== leader)!;
+    const floor = (0.9 * 0.2) / 3;
+    expect(propensityOf(round.allocation, leader)).toBeCloseTo(0.9 * 0.8 + floor, 12);
+    expect(propensityOf(round.allocation, other)).toBeCloseTo(floor, 12);
+    expect(propensityOf(round.allocation, combinationKey(design, [0]))).toBeCloseTo(0.1 + floor, 12);
   });
 
   it("agrees with Beta posteriors (jStat) for two combinations with plenty of data and a flat prior", () => {

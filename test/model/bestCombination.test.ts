@@ -3,7 +3,7 @@ import { createRng, foldCycle, initialState, parseSettings, pickFrom, combinatio
 import { CLIMB_RESTARTS, comboTable, scanByClimbing, scanEnumerated } from "../../src/model/bestCombination.ts";
 import { factorSpd } from "../../src/model/linalg.ts";
 import { priorFor } from "../../src/model/prior.ts";
-import { drawSamples } from "../../src/model/sampling.ts";
+import { drawSamples, temperDraws } from "../../src/model/sampling.ts";
 import { page } from "./engineFixtures.ts";
 
 describe("best combination of a sample", () => {
@@ -28,10 +28,10 @@ describe("best combination of a sample", () => {
       const rng = createRng(17);
       const samples = drawSamples(posterior, d, M, rng);
       const table = comboTable(design);
-      const exact = scanEnumerated(table, samples, M, d + 1, new Uint8Array(table.keys.length).fill(1));
+      const exact = scanEnumerated(table, samples, M, new Uint8Array(table.keys.length).fill(1));
       const meanTheta = new Float64Array(d + 1);
       meanTheta.set(mean);
-      const climbed = scanByClimbing(design, samples, M, d + 1, meanTheta, rng);
+      const climbed = scanByClimbing(design, samples, M, meanTheta, rng);
       let hits = 0;
       for (let s = 0; s < M; s++) {
         expect(climbed.bestScore[s]).toBeLessThanOrEqual(exact.bestScore[s] + 1e-12); // never better than the optimum
@@ -41,6 +41,34 @@ describe("best combination of a sample", () => {
       console.log(`hill climbing (${CLIMB_RESTARTS} random restarts + mean start) on ${levels.join("×")}: found the optimum in ${(rate * 100).toFixed(1)}% of ${M} samples`);
       expect(rate).toBeGreaterThan(0.95);
     }
+  });
+
+  it("tempers in one pass exactly as scanning tempered draws does", () => {
+    // Identity: xᵀ(μ + α(θ − μ)) = xᵀμ + α(xᵀθ − xᵀμ), so the enumerated scan's tempered argmax
+    // must pick, draw by draw, what an untempered scan of explicitly tempered draws picks.
+    const design = page([3, 3, 2, 2]);
+    const settings = parseSettings({});
+    const prior = priorFor(design, settings);
+    const d = design.dimension;
+    const precision = new Float64Array(d * d);
+    for (let i = 0; i < d; i++) precision[i * d + i] = prior.precision[i];
+    const mean = prior.precisionMean.map((h, i) => h / prior.precision[i] + 0.05 * Math.sin(i));
+    const posterior = { precision, mean, chol: factorSpd(precision.slice(), d, "test") };
+    const M = 500;
+    const samples = drawSamples(posterior, d, M, createRng(5));
+    const table = comboTable(design);
+    const meanTheta = new Float64Array(d + 1);
+    meanTheta.set(mean);
+    const meanScore = Float64Array.from(table.combos, (_, c) => {
+      let acc = 0;
+      for (let a = table.start[c]; a < table.start[c + 1]; a++) acc += meanTheta[table.idx[a]];
+      return acc;
+    });
+    const all = new Uint8Array(table.keys.length).fill(1);
+    const onePass = scanEnumerated(table, samples, M, all, { scale: 0.5, meanScore });
+    const explicit = scanEnumerated(table, temperDraws(samples, meanTheta, d, M, 0.5), M, all);
+    expect(Array.from(onePass.countEligible)).toEqual(Array.from(explicit.countAll));
+    expect(Array.from(onePass.countEligible)).not.toEqual(Array.from(onePass.countAll)); // tempering changed something
   });
 
   it("serves spaces above the enumeration limit through the climb", () => {

@@ -5,6 +5,25 @@ import { page } from "./engineFixtures.ts";
 const DAY = 86_400_000;
 
 describe("foldCycle", () => {
+  it("leaves out the pooled \"*\" round on request only when no requested segment needs it, and changes nothing else", () => {
+    // Each segment draws from its own stream (seed, segment key), so skipping "*" must leave every
+    // other allocation and summary exactly as it was.
+    const design = page([3, 2]);
+    const settings = parseSettings({});
+    const rows = ["a", "b"].flatMap((segment, i) => [
+      { segment, combination: combinationKey(design, [1, 0]), n: 500, k: 20 + i },
+      { segment, combination: combinationKey(design, [2, 1]), n: 500, k: 30 },
+    ]);
+    const input = { design, settings, state: initialState(design, settings), rows, now: 0, retired: [], seed: 4 };
+    const full = foldCycle({ ...input, segments: ["a", "b"] });
+    const lean = foldCycle({ ...input, segments: ["a", "b"], pooled: false });
+    expect(Object.keys(lean.allocations).sort()).toEqual(["a", "b"]);
+    expect(lean.allocations.a).toEqual(full.allocations.a);
+    expect(lean.summaries.b).toEqual(full.summaries.b);
+    const unseen = foldCycle({ ...input, segments: ["a", "b", "c"], pooled: false });
+    expect(unseen.allocations.c.keys).toEqual(full.allocations["*"].keys);
+  });
+
   it("retires a dominated combination after retireAfterFolds folds and reinstates it after forgetting", () => {
     // Rules from DESIGN.md "Retired": P(best) < retireProbability for retireAfterFolds consecutive
     // folds and upper bound < the leader's lower bound; forgetting can bring it back, recorded.

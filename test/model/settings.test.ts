@@ -6,12 +6,12 @@ describe("page settings", () => {
   it("fills every default from the contract's settings table", () => {
     // Values from the settings table of the project contract (not an outside source), except the
     // simulator-tuned values (segmentSpread, explorationFloor, baselineShare, prior scales) and the
-    // added segmentInterceptSpread — see the doc comment of settings.ts for the runs behind them.
+    // added segmentInterceptSpread and thompsonScale — see the doc comment of settings.ts for the runs behind them.
     expect(parseSettings({})).toEqual({
-      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 3600, explorationFloor: 0.005,
+      attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 3600, explorationFloor: 0.01,
       baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
       retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.1, segmentInterceptSpread: 1, priorInterceptMean: -3, priorInterceptScale: 2,
-      priorMainScale: 0.25, priorInteractionScale: 0.1, samples: 1000, maxSegments: 200,
+      priorMainScale: 0.25, priorInteractionScale: 0.1, thompsonScale: 0.6, samples: 1000, maxSegments: 200,
     });
     expect(parseSettings(undefined)).toEqual(defaultSettings);
     expect(parseSettings({ halfLifeDays: 3 }).halfLifeDays).toBe(3);
@@ -20,6 +20,8 @@ describe("page settings", () => {
   it("rejects bad values and unknown names with INVALID_SETTING naming the field", () => {
     const cases: [unknown, string][] = [
       [{ explorationFloor: 1.5 }, "explorationFloor"],
+      [{ thompsonScale: 0 }, "thompsonScale"],
+      [{ thompsonScale: 1.2 }, "thompsonScale"],
       [{ baselineShare: -0.1 }, "baselineShare"],
       [{ samples: 10.5 }, "samples"],
       [{ retireAfterFolds: 0 }, "retireAfterFolds"],

@@ -21,6 +21,8 @@ export const settingFields: Field[] = [
     help: "A conversion counts when it is reported within this many hours of the visit." },
   { name: "explorationFloor", label: "Exploration floor", unit: "share",
     help: "Share of traffic always spread over every combination still in play, so nothing is written off too early." },
+  { name: "thompsonScale", label: "Exploration strength", unit: "share",
+    help: "How boldly traffic is tried on combinations that might be best: 1 = in proportion to their chance of being best (plain Thompson sampling), lower = more traffic to the current favourites.", advanced: true },
   { name: "baselineShare", label: "Baseline share", unit: "share",
     help: "Share of traffic kept on the baseline combination, to measure real lift against it." },
   { name: "settleProbability", label: "Settle when the leader's chance of being best reaches", unit: "share",
