@@ -20,7 +20,7 @@ export { allowedCombinations, ENUMERATION_LIMIT, isAllowed } from "./allowed.ts"
 export { defaultSettings, parseSettings, settingsSchema, type PageSettings } from "./settings.ts";
 export { createRng, type Rng } from "./rng.ts";
 export { deserializeState, initialState, serializeState, type ModelState } from "./state.ts";
-export { remapState } from "./remap.ts";
+export { featureMapping, remapState } from "./remap.ts";
 export type { FoldRow } from "./fold.ts";
 export { foldCycle, foldState, POOLED, type FoldCycleInput, type FoldCycleOutput } from "./foldCycle.ts";
 export { pickFrom, propensityOf, type Allocation } from "./allocation.ts";

@@ -6,7 +6,7 @@
  */
 import { EventEmitter } from "node:events";
 import type { Pool } from "pg";
-import { deserializeState, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
+import { deserializeState, featureMapping, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
 import type { Design } from "../model/index.ts";
 import { fail } from "../errors.ts";
 import { inTransaction } from "../store/repositories/sql.ts";
@@ -239,15 +239,20 @@ function planEdit(page: StoredPage, patch: PagePatch): EditPlan {
 /** What an edit does to what was learned, in words for the PATCH response. */
 function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolean, newDesign: Design | null): Learned {
   const none: Learned = { action: "unchanged", message: "Nothing that affects learning changed.", keptFeatures: 0, droppedFeatures: [], addedFeatures: [], droppedOpenPicks: 0 };
-  const oldNames = designOf(page).featureNames;
+  const oldDesign = designOf(page);
+  const oldNames = oldDesign.featureNames;
   if (newDesign) {
-    const kept = newDesign.featureNames.filter((n) => oldNames.includes(n));
-    const dropped = oldNames.filter((n) => !newDesign.featureNames.includes(n));
-    const added = newDesign.featureNames.filter((n) => !oldNames.includes(n));
+    // The model's own mapping decides what survives (a changed first level re-bases that factor's
+    // features, so equal names are not enough).
+    const mapping = featureMapping(oldDesign, newDesign);
+    const kept = oldNames.filter((_, i) => mapping[i] >= 0);
+    const dropped = oldNames.filter((_, i) => mapping[i] < 0);
+    const reached = new Set(Array.from(mapping).filter((j) => j >= 0));
+    const added = newDesign.featureNames.filter((_, j) => !reached.has(j));
     return {
       action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0,
       message: `The model was remapped to the new design: ${kept.length} learned coefficients kept` +
-        (dropped.length ? `, ${dropped.length} dropped with their evidence (${dropped.join(", ")})` : "") +
+        (dropped.length ? `, ${dropped.length} dropped — what their data said about the kept ones stays (${dropped.join(", ")})` : "") +
         (added.length ? `, ${added.length} new ones start from the prior (${added.join(", ")})` : "") + ".",
     };
   }

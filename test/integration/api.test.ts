@@ -256,14 +256,25 @@ forEachDatabase("API routes", (open) => {
       // a returning visitor whose combination no longer exists gets a new one
       const returning = await h.pick(page, "visitor-1", { source: "search" });
       expect(Object.keys(returning.body.combination)).toEqual(["photo", "button"]);
+
+      // Removing a factor's first level re-bases that factor: the intercept and its coefficients
+      // cannot carry over (same names, new meaning), while the other factor's do.
+      const rebased = await h.admin("PATCH", `/pages/${page.key}`, { removeLevels: [{ factor: "button", level: "book" }] });
+      expect(rebased.status).toBe(200);
+      const learned = rebased.body.learned;
+      expect(learned.droppedFeatures).toContain("(intercept)");
+      expect(learned.addedFeatures).toContain("(intercept)");
+      expect(learned.droppedFeatures.some((n: string) => n.includes("button="))).toBe(true);
+      expect(learned.droppedFeatures.some((n: string) => n.startsWith("photo=") && !n.includes("button="))).toBe(false);
+      expect(learned.keptFeatures).toBeGreaterThan(0);
     });
 
     it("updates a level's value without touching the model", async () => {
       const before = (await h.admin("GET", `/pages/${page.key}`)).body.modelVersion;
-      const r = await h.admin("PATCH", `/pages/${page.key}`, { levelValues: [{ factor: "button", level: "book", value: "Book today" }] });
+      const r = await h.admin("PATCH", `/pages/${page.key}`, { levelValues: [{ factor: "button", level: "call", value: "Call today" }] });
       expect(r.body.learned.action).toBe("unchanged");
       expect(r.body.page.modelVersion).toBe(before);
-      expect(r.body.page.factors[1].levels[0].value).toBe("Book today");
+      expect(r.body.page.factors[1].levels[0].value).toBe("Call today");
     });
   });
 
