@@ -5,7 +5,7 @@
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
-import { firstIssue, reasonOf } from "../service/issues.ts";
+import { firstIssue, reasonOf } from "../issues.ts";
 
 const name = z.string().min(1).max(100);
 const text = z.string().max(10_000);

@@ -7,7 +7,7 @@ import { buildDesign, combinationKey, parseCombinationKey, isAllowed, parseSetti
 import type { Design, PageDefinition, PageSettings } from "../model/index.ts";
 import type { StoredPage, PageTotals } from "../store/repositories/pages.ts";
 import { fail } from "../errors.ts";
-import { firstIssue, reasonOf } from "./issues.ts";
+import { firstIssue, reasonOf } from "../issues.ts";
 
 /** The demo page's key; only it accepts POST /demo-traffic. */
 export const DEMO_PAGE_KEY = "bike-repair-demo";

@@ -9,6 +9,7 @@
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
+import { firstIssue, reasonOf } from "../issues.ts";
 
 export const DEFAULT_VISITORS_PER_DAY = 20000;
 export const DEFAULT_VISITORS = 200000;
@@ -131,10 +132,10 @@ function checkTruth(scenario: Pick<Scenario, "factors" | "segments">, truth: Pha
  * (see truthTable.ts and runSimulation.ts), because those rules live in src/model.
  */
 export function parseScenario(input: unknown): Scenario {
-  const parsed = scenarioSchema.safeParse(input);
+  const parsed = scenarioSchema.safeParse(input, { reportInput: true });
   if (!parsed.success) {
-    const issue = parsed.error.issues[0]!;
-    invalid(issue.path.map((p) => (typeof p === "symbol" ? String(p) : p)), issue.message);
+    const issue = firstIssue(parsed.error.issues);
+    invalid(issue.path.map((p) => (typeof p === "symbol" ? String(p) : p)), reasonOf(issue));
   }
   const raw = parsed.data;
   const factorNames = raw.factors.map((f) => f.name);

@@ -19,7 +19,7 @@ interface Case {
   status: number;
   code: string;
   field?: string;
-  /** the whole message, where the wording itself is under test (src/http/issues.ts writes it) */
+  /** the whole message, where the wording itself is under test (src/issues.ts writes it) */
   message?: string;
 }
 

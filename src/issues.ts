@@ -3,7 +3,8 @@
  * to have >=1 characters") never reach users: each issue is rewritten from its code, its bounds
  * and its path, whose parts are named by two small tables (list items and field names), so a new
  * schema field needs at most a word here, never its own message. Used for request bodies
- * (src/http/validation.ts) and for page settings, whose schema is the engine's.
+ * (src/http/validation.ts), for page settings, whose schema is the engine's, and for scenario
+ * files (src/sim/scenario.ts).
  */
 import type { z } from "zod";
 
@@ -14,6 +15,7 @@ const ITEM: Record<string, string> = {
   factors: "factor", levels: "level", exclude: "exclusion rule", interactions: "interaction pair",
   segmentBy: "segment key", addFactors: "added factor", removeFactors: "removed factor",
   addLevels: "added level", removeLevels: "removed level", levelValues: "level value",
+  segments: "segment", phases: "phase", pairs: "combination effect",
 };
 
 /** Field names as words; any other key (a context name, a factor named in a rule) is quoted. */
@@ -22,6 +24,11 @@ const FIELD: Record<string, string> = {
   visitor: "visitor id", context: "context", pick: "pick id", event: "event id", visitors: "number of visitors",
   status: "status", format: "format", settings: "settings", factors: "factors", exclude: "exclusion rules",
   interactions: "interaction pairs", segmentBy: "segment keys", body: "body", query: "query",
+  // scenario files (src/sim/scenario.ts)
+  truth: "truth", baseline: "baseline rate", share: "traffic share", segments: "segments", phases: "phases",
+  mde: "mde", visitorsPerDay: "visitors per day", runs: "number of runs", engine: "engine settings",
+  main: "main effects", pairs: "effects of level combinations", when: "levels", shift: "log-odds shift",
+  rates: "exact rates", from: "starting visitor",
 };
 
 /** Expected types as words. */
