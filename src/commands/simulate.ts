@@ -99,7 +99,9 @@ export async function run(argv: string[]): Promise<number> {
   }
   if (values.json) console.log(JSON.stringify(report));
   else {
-    console.log(formatTable(report, { visitorsPerDay: scenario.visitorsPerDay, combinations: prepared.keys.length, seconds }));
+    const settled = results.flatMap((r) => r.facetwise.settleCorrect ?? []);
+    const settledShare = settled.length > 0 ? settled.filter((x) => x !== null).length / settled.length : undefined;
+    console.log(formatTable(report, { visitorsPerDay: scenario.visitorsPerDay, combinations: prepared.keys.length, seconds, settledShare }));
     if (values.out !== undefined) console.log(`\nWrote ${join(values.out, "report.json")}, regret.svg and best-share.svg`);
   }
   return 0;

@@ -10,7 +10,13 @@ const pct = (x: number | null): string => (x === null ? "—" : `${(x * 100).toF
 
 export function formatTable(
   report: SimulationReport,
-  context: { visitorsPerDay: number; combinations: number; seconds?: number },
+  context: {
+    visitorsPerDay: number;
+    combinations: number;
+    seconds?: number;
+    /** Share of run × segment pairs in which the engine's segment settled within the horizon. */
+    settledShare?: number;
+  },
 ): string {
   const rows = [["policy", "regret mean (p10–p90)", "conversions", "final correct", "settled by (median)", "settle correct"]];
   for (const name of POLICY_NAMES) {
@@ -20,8 +26,10 @@ export function formatTable(
       `${int(p.regret.mean)} (${int(p.regret.p10)}–${int(p.regret.p90)})`,
       int(p.conversions),
       pct(p.finalCorrect),
-      p.visitorsToSettle === null ? "—" : `${int(p.visitorsToSettle)} visitors`,
-      pct(p.settleCorrect),
+      p.visitorsToSettle !== null ? `${int(p.visitorsToSettle)} visitors` : p.settleCorrect === null ? "—" : "beyond horizon",
+      p.settleCorrect === null || context.settledShare === undefined || name !== "facetwise"
+        ? pct(p.settleCorrect)
+        : `${pct(p.settleCorrect)} of ${pct(context.settledShare)} settled`,
     ]);
   }
   const widths = rows[0]!.map((_, i) => Math.max(...rows.map((r) => r[i]!.length)));
