@@ -11,7 +11,7 @@ import type { SessionInfo, Settings } from "./types.ts";
 interface Field {
   name: string;
   label: string;
-  unit: "hours" | "seconds" | "days" | "share" | "count" | "log-odds";
+  unit: "hours" | "seconds" | "days" | "share" | "scale" | "count" | "log-odds";
   help: string;
   advanced?: boolean;
 }
@@ -21,7 +21,7 @@ export const settingFields: Field[] = [
     help: "A conversion counts when it is reported within this many hours of the visit." },
   { name: "explorationFloor", label: "Exploration floor", unit: "share",
     help: "Share of traffic always spread over every combination still in play, so nothing is written off too early." },
-  { name: "thompsonScale", label: "Exploration strength", unit: "share",
+  { name: "thompsonScale", label: "Exploration strength", unit: "scale",
     help: "How boldly traffic is tried on combinations that might be best: 1 = in proportion to their chance of being best (plain Thompson sampling), lower = more traffic to the current favourites.", advanced: true },
   { name: "baselineShare", label: "Baseline share", unit: "share",
     help: "Share of traffic kept on the baseline combination, to measure real lift against it." },
@@ -56,7 +56,7 @@ export const settingFields: Field[] = [
 ];
 
 const unitWords: Record<Field["unit"], string> = {
-  hours: "hours", seconds: "seconds", days: "days", share: "fraction 0–1", count: "", "log-odds": "log-odds",
+  hours: "hours", seconds: "seconds", days: "days", share: "fraction 0–1", scale: "above 0, at most 1", count: "", "log-odds": "log-odds",
 };
 
 export interface SettingsForm {
