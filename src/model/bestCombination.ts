@@ -1,8 +1,9 @@
 /**
  * Each posterior sample's best allowed combination — the core of Thompson sampling, where the
- * share of samples in which a combination is best is its probability of being best and, at the
- * same time, its allocation (Thompson 1933, Biometrika 25; Russo et al., "A Tutorial on Thompson
- * Sampling", Foundations and Trends in ML 11(1), 2018, §3).
+ * share of samples in which a combination is best is its probability of being best and, for
+ * plain Thompson sampling, its allocation (Thompson 1933, Biometrika 25; Russo et al., "A Tutorial
+ * on Thompson Sampling", Foundations and Trends in ML 11(1), 2018, §3). The allocation here counts
+ * tempered draws (see Tempering and allocateSegment.ts).
  *
  * Up to ENUMERATION_LIMIT (4096) allowed combinations every combination is scored for every
  * sample (exact). Above it, coordinate-ascent hill climbing: change one factor at a time to its
