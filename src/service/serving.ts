@@ -31,6 +31,8 @@ export class ServingCache {
   private readonly pages = new Map<string, Promise<ServingPage>>();
   private poller: NodeJS.Timeout | null = null;
   private listener: pg.Client | null = null;
+  private reconnecting: NodeJS.Timeout | null = null;
+  private stopped = false;
 
   constructor(private readonly pool: pg.Pool) {}
 
@@ -91,23 +93,63 @@ export class ServingCache {
     this.poller = setTimeout(loop, everyMs);
   }
 
-  /** On a real PostgreSQL: hear other processes' folds at once (polling stays as the fallback). */
+  /**
+   * On a real PostgreSQL: hear other processes' folds at once (polling stays as the fallback).
+   * A lost connection (a database restart, a terminated backend) is opened again with backoff
+   * (0.5 s doubling to 30 s); notifications sent meanwhile are lost, so every cached page is
+   * reloaded once it is back.
+   */
   async listen(url: string): Promise<void> {
     const client = new pg.Client({ connectionString: url });
-    client.on("error", () => undefined);
-    await client.connect();
-    client.on("notification", (message) => {
-      const key = message.payload?.slice(0, message.payload.lastIndexOf(":"));
-      if (key) this.invalidate(key);
-    });
-    await client.query(`LISTEN ${MODEL_CHANNEL}`);
+    let lost = false;
+    const onLost = () => {
+      if (lost) return;
+      lost = true;
+      if (this.listener !== client) return; // stopped, or never got as far as listening
+      this.listener = null;
+      this.reconnect(url, 0);
+    };
+    client.on("error", onLost);
+    client.on("end", onLost);
+    try {
+      await client.connect();
+      client.on("notification", (message) => {
+        const key = message.payload?.slice(0, message.payload.lastIndexOf(":"));
+        if (key) this.invalidate(key);
+      });
+      await client.query(`LISTEN ${MODEL_CHANNEL}`);
+    } catch (error) {
+      lost = true;
+      await client.end().catch(() => undefined);
+      throw error;
+    }
+    if (this.stopped) {
+      lost = true;
+      await client.end().catch(() => undefined);
+      return;
+    }
     this.listener = client;
   }
 
+  private reconnect(url: string, attempt: number): void {
+    if (this.stopped) return;
+    this.reconnecting = setTimeout(() => {
+      this.reconnecting = null;
+      this.listen(url).then(
+        () => this.pages.clear(),
+        () => this.reconnect(url, attempt + 1),
+      );
+    }, Math.min(30_000, 500 * 2 ** attempt));
+  }
+
   async stop(): Promise<void> {
+    this.stopped = true;
     if (this.poller) clearTimeout(this.poller);
     this.poller = null;
-    await this.listener?.end().catch(() => undefined);
+    if (this.reconnecting) clearTimeout(this.reconnecting);
+    this.reconnecting = null;
+    const listener = this.listener;
     this.listener = null;
+    await listener?.end().catch(() => undefined);
   }
 }
