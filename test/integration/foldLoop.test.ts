@@ -201,15 +201,20 @@ forEachDatabase("fold loop", (open, target) => {
     });
   });
 
-  it.runIf(target.kind === "postgres")("tells another server process of a new model version through LISTEN/NOTIFY", async () => {
+  /**
+   * Two server processes on one PostgreSQL: A folds, B polls only once a minute, so B can see the
+   * new version within 5 s only through LISTEN/NOTIFY. `meanwhile` runs between B's first read and
+   * A's fold.
+   */
+  async function heardByOtherProcess(pageKey: string, meanwhile: (db: Database) => Promise<void> = async () => {}): Promise<void> {
     const db = await open();
     const a = await startHarness(db);
-    // process B polls only once a minute: a prompt switch can only come from the notification
     const other = await reopen(db);
     const b = await startHarness(other, { pollMs: 60_000 });
     try {
-      const page = await createPage(a, "notified", {});
+      const page = await createPage(a, pageKey, {});
       expect((await b.server.services.serving.get(page.key)).version).toBe(1);
+      await meanwhile(db);
       const fold = await a.server.services.folds.foldPage(page.id, true);
       expect(fold).toMatchObject({ folded: true, version: 2 });
       await waitUntil(async () => (await b.server.services.serving.get(page.key)).version === 2, 5000);
@@ -219,36 +224,25 @@ forEachDatabase("fold loop", (open, target) => {
       await a.close();
       await db.close();
     }
+  }
+
+  it.runIf(target.kind === "postgres")("tells another server process of a new model version through LISTEN/NOTIFY", async () => {
+    await heardByOtherProcess("notified");
   });
 
   it.runIf(target.kind === "postgres")("listens again after its LISTEN connection is cut, and hears the next fold", async () => {
-    const db = await open();
-    const a = await startHarness(db);
-    const other = await reopen(db);
-    const b = await startHarness(other, { pollMs: 60_000 });
-    const listeners = async () =>
-      (await db.pool.query("SELECT pid FROM pg_stat_activity WHERE datname = current_database() AND query LIKE 'LISTEN %'")).rows.map((r) => r.pid as number);
-    try {
-      const page = await createPage(a, "relistened", {});
-      expect((await b.server.services.serving.get(page.key)).version).toBe(1);
+    await heardByOtherProcess("relistened", async (db) => {
+      const listening = "FROM pg_stat_activity WHERE datname = current_database() AND query LIKE 'LISTEN %'";
+      const listeners = async () => (await db.pool.query(`SELECT pid ${listening}`)).rows.map((r) => r.pid as number);
       const before = await listeners();
       expect(before.length).toBeGreaterThan(0);
       // as a database restart or an administrator would: end every listening backend
-      await db.pool.query("SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = current_database() AND query LIKE 'LISTEN %'");
+      await db.pool.query(`SELECT pg_terminate_backend(pid) ${listening}`);
       await waitUntil(async () => {
         const now = await listeners();
         return now.length === before.length && now.every((pid) => !before.includes(pid));
       }, 10_000);
-      const fold = await a.server.services.folds.foldPage(page.id, true);
-      expect(fold).toMatchObject({ folded: true, version: 2 });
-      // B polls once a minute: only the re-opened LISTEN can bring the new version this soon
-      await waitUntil(async () => (await b.server.services.serving.get(page.key)).version === 2, 5000);
-    } finally {
-      await b.close();
-      await other.close();
-      await a.close();
-      await db.close();
-    }
+    });
   });
 
   it("resumes after a restart without folding any trial or conversion twice, and the stored posterior equals a replay of the stored picks", async () => {
