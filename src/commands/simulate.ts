@@ -16,7 +16,7 @@ import type { MaturityRule } from "../sim/maturity.ts";
 import { progressBar } from "../sim/progressBar.ts";
 import { formatTable } from "../sim/reportTable.ts";
 import { setup } from "../sim/setup.ts";
-import { summarize } from "../sim/summarize.ts";
+import { settledShare, summarize } from "../sim/summarize.ts";
 
 export const summary = "compare the engine with a split test and independent bandits on a scenario";
 
@@ -99,9 +99,14 @@ export async function run(argv: string[]): Promise<number> {
   }
   if (values.json) console.log(JSON.stringify(report));
   else {
-    const settled = results.flatMap((r) => r.facetwise.settleCorrect ?? []);
-    const settledShare = settled.length > 0 ? settled.filter((x) => x !== null).length / settled.length : undefined;
-    console.log(formatTable(report, { visitorsPerDay: scenario.visitorsPerDay, combinations: prepared.keys.length, seconds, settledShare }));
+    console.log(
+      formatTable(report, {
+        visitorsPerDay: scenario.visitorsPerDay,
+        combinations: prepared.keys.length,
+        seconds,
+        settledShare: settledShare(results, "facetwise"),
+      }),
+    );
     if (values.out !== undefined) console.log(`\nWrote ${join(values.out, "report.json")}, regret.svg and best-share.svg`);
   }
   return 0;

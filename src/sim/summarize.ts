@@ -48,6 +48,15 @@ export function summarizePolicy(results: RunResult[], name: PolicyName): PolicyR
   };
 }
 
+/**
+ * Share of run × segment pairs in which the policy's segment settled within the horizon (for the
+ * table; not part of the --json shape). Undefined for policies without a stopping rule.
+ */
+export function settledShare(results: RunResult[], name: PolicyName): number | undefined {
+  const settled = results.flatMap((r) => r[name].settleCorrect ?? []);
+  return settled.length > 0 ? settled.filter((x) => x !== null).length / settled.length : undefined;
+}
+
 export function summarize(
   meta: { scenario: string; visitors: number; seed: number; mde: number; fixedHorizon: FixedHorizon },
   results: RunResult[],
