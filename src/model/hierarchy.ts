@@ -16,6 +16,12 @@
  * Unseen segments and the "*" allocation: the pooled model predicting a new segment,
  * N(μ_β, P_β⁻¹ + T).
  *
+ * τ is learned (spreadSearch.ts) by maximising, over a grid around segmentSpread, the log marginal
+ * likelihood of the sites under T plus a hyperprior. With a site read as the unnormalised likelihood
+ * exp(ηᵀθ − ½θᵀΛθ), completing squares gives, up to terms free of T,
+ *   log Z(T) = Σ_s [−½ log|I + SΛ_sS| + ½ |L_s⁻¹Sη_s|²] − ½ log|P_β| + ½ h_βᵀ P_β⁻¹ h_β,
+ * where L_sL_sᵀ = I + SΛ_sS is the factor `widen` already computes (S = T^½).
+ *
  * This is Gaussian message passing on a two-level normal hierarchy (Gelman et al., Bayesian
  * Data Analysis, 3rd ed. 2013, §5.4 for the hierarchical normal model; the site/cavity
  * construction follows expectation propagation, Minka 2001, "A family of algorithms for
@@ -23,8 +29,9 @@
  */
 import type { Design } from "./design.ts";
 import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts";
-import { priorFor } from "./prior.ts";
+import { priorFor, type DiagonalPrior } from "./prior.ts";
 import type { PageSettings } from "./settings.ts";
+import { searchSpread, spreadFactor } from "./spreadSearch.ts";
 import type { Site } from "./state.ts";
 
 /** A Gaussian N(mean, precision⁻¹) with the Cholesky factor of its precision. */
@@ -41,6 +48,8 @@ export interface Posteriors {
   star: Gaussian;
   /** θ_s for every site. */
   segments: Map<string, Gaussian>;
+  /** τ in use: segmentSpread as learned from the sites (spreadSearch.ts). */
+  segmentSpread: number;
 }
 
 /**
@@ -48,8 +57,9 @@ export interface Posteriors {
  * (A, v) returns ((A⁻¹ + T)⁻¹, (I + AT)⁻¹v), computed without inverting A (valid for singular A)
  * by the push-through identity (I + AT)⁻¹ = I − AS(I + SAS)⁻¹S (Henderson & Searle, SIAM Review
  * 23(1), 1981): with B = I + SAS = LLᵀ and Y = L⁻¹SA, the results are A − YᵀY and v − YᵀL⁻¹Sv.
+ * Also returns the site's T-dependent share of the log evidence, −log|L| + ½|L⁻¹Sv|².
  */
-export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float64Array, where: string): { m: Float64Array; v: Float64Array } {
+export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float64Array, where: string): Widened {
   const b = new Float64Array(d * d);
   for (let i = 0; i < d; i++) {
     for (let j = 0; j < d; j++) b[i * d + j] = spread[i] * a[i * d + j] * spread[j];
@@ -84,7 +94,15 @@ export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float
   forwardSolve(l, d, sv);
   const out = v.slice();
   for (let k = 0; k < d; k++) for (let i = 0; i < d; i++) out[i] -= y[k * d + i] * sv[k];
-  return { m, v: out };
+  let logEvidence = 0;
+  for (let i = 0; i < d; i++) logEvidence += 0.5 * sv[i] * sv[i] - Math.log(l[i * d + i]);
+  return { m, v: out, logEvidence };
+}
+
+export interface Widened {
+  m: Float64Array;
+  v: Float64Array;
+  logEvidence: number;
 }
 
 function gaussianFromNatural(precision: Float64Array, h: Float64Array, d: number, where: string): Gaussian {
@@ -92,25 +110,57 @@ function gaussianFromNatural(precision: Float64Array, h: Float64Array, d: number
   return { precision, mean: choleskySolve(chol, d, h), chol };
 }
 
-/**
- * Posteriors of the pooled model, of a new segment, and of the segments in `only` (default:
- * every site).
- */
-export function computePosteriors(design: Design, settings: PageSettings, sites: Map<string, Site>, only?: Iterable<string>): Posteriors {
-  const d = design.dimension;
-  const spread = segmentSpreads(design, settings);
-  const prior = priorFor(design, settings);
+interface Pooled {
+  spread: Float64Array;
+  terms: Map<string, Widened>;
+  pBeta: Float64Array;
+  hBeta: Float64Array;
+  pooled: Gaussian;
+  /** log Z(T) up to terms free of T (see the header). */
+  logEvidence: number;
+}
+
+/** Every site seen through T = diag(spread²), summed with the prior into β's posterior. */
+function poolSites(d: number, prior: DiagonalPrior, sites: Map<string, Site>, spread: Float64Array): Pooled {
   const pBeta = new Float64Array(d * d);
   const hBeta = Float64Array.from(prior.precisionMean);
   for (let i = 0; i < d; i++) pBeta[i * d + i] = prior.precision[i];
-  const terms = new Map<string, { m: Float64Array; v: Float64Array }>();
+  const terms = new Map<string, Widened>();
+  let logEvidence = 0;
   for (const [segment, site] of sites) {
     const term = widen(site.lambda, d, spread, site.eta, `the pooled posterior (segment "${segment}")`);
     terms.set(segment, term);
+    logEvidence += term.logEvidence;
     for (let i = 0; i < d * d; i++) pBeta[i] += term.m[i];
     for (let i = 0; i < d; i++) hBeta[i] += term.v[i];
   }
   const pooled = gaussianFromNatural(pBeta.slice(), hBeta.slice(), d, "the pooled posterior");
+  for (let i = 0; i < d; i++) logEvidence += 0.5 * hBeta[i] * pooled.mean[i] - Math.log(pooled.chol[i * d + i]);
+  return { spread, terms, pBeta, hBeta, pooled, logEvidence };
+}
+
+/**
+ * The log evidence log Z(T) of the sites (up to terms free of T), for tests and diagnostics;
+ * `prior` is β's prior.
+ */
+export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, Site>, spread: Float64Array): number {
+  return poolSites(d, prior, sites, spread).logEvidence;
+}
+
+/**
+ * Posteriors of the pooled model, of a new segment, and of the segments in `only` (default:
+ * every site), under the learned segment spread.
+ */
+export function computePosteriors(design: Design, settings: PageSettings, sites: Map<string, Site>, only?: Iterable<string>): Posteriors {
+  const d = design.dimension;
+  const base = segmentSpreads(design, settings);
+  const prior = priorFor(design, settings);
+  const scaled = (k: number): Pooled =>
+    poolSites(d, prior, sites, k === 0 ? base : base.map((x, i) => (i === 0 ? x : x * spreadFactor(k))));
+  // τ is not identified from fewer than two segments with data: keep the setting.
+  let withData = 0;
+  for (const site of sites.values()) if (site.visitors > 0) withData++;
+  const { spread, terms, pBeta, hBeta, pooled } = withData >= 2 ? searchSpread(scaled).value : scaled(0);
   const starTerm = widen(pBeta, d, spread, hBeta, "the new-segment posterior");
   const star = gaussianFromNatural(starTerm.m, starTerm.v, d, "the new-segment posterior");
 
@@ -130,7 +180,7 @@ export function computePosteriors(design: Design, settings: PageSettings, sites:
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments };
+  return { pooled, star, segments, segmentSpread: spread.length > 1 ? spread[1] : settings.segmentSpread };
 }
 
 /**
