@@ -1,7 +1,7 @@
 import { inverse, Matrix, solve } from "ml-matrix";
 import { describe, expect, it } from "vitest";
 import { combinationKey, createRng, foldState, initialState, parseSettings } from "../../src/model/index.ts";
-import { computePosteriors, widen } from "../../src/model/hierarchy.ts";
+import { computePosteriors, logEvidence, widen } from "../../src/model/hierarchy.ts";
 import { page } from "./engineFixtures.ts";
 
 function randomSpd(d: number, seed: number, rank = d): Float64Array {
@@ -58,5 +58,74 @@ describe("pooled and segment posteriors", () => {
     const truthEffect = Math.log((0.06 / 0.94) / (0.04 / 0.96));
     expect(Math.abs(post.segments.get("a")!.mean[j] - truthEffect)).toBeLessThan(0.15);
     expect(post.segments.get("a")!.precision[j * design.dimension + j]).toBeGreaterThan(onlyA.segments.get("a")!.precision[j * design.dimension + j]);
+  });
+});
+
+describe("log evidence of the sites under a segment spread", () => {
+  // Eight schools (Gelman et al., Bayesian Data Analysis, 3rd ed. 2013, Table 5.2: estimated
+  // effects y_j and standard errors σ_j; values from memory of the book). Each school is a
+  // one-coefficient site exp(ηθ − ½Λθ²) with Λ = 1/σ², η = y/σ², and β gets a nearly flat prior,
+  // so log Z(τ) must match the log of BDA eq. 5.21, p(τ | y) under a uniform p(τ), up to a constant.
+  const y = [28, 8, -3, 7, -1, 1, 18, 12];
+  const sigma = [15, 10, 16, 11, 9, 11, 10, 18];
+  const sites = new Map(
+    y.map((yj, j) => [
+      `school ${j}`,
+      { lambda: Float64Array.of(1 / sigma[j] ** 2), eta: Float64Array.of(yj / sigma[j] ** 2), visitors: 1, conversions: 0, folds: 1 },
+    ]),
+  );
+  const flat = { precision: Float64Array.of(1e-12), precisionMean: Float64Array.of(0) };
+  const bda521 = (tau: number): number => {
+    const w = sigma.map((s) => 1 / (s * s + tau * tau));
+    const sumW = w.reduce((a, b) => a + b, 0);
+    const muHat = y.reduce((a, yj, j) => a + w[j] * yj, 0) / sumW;
+    return -0.5 * Math.log(sumW) + y.reduce((a, yj, j) => a + 0.5 * Math.log(w[j]) - 0.5 * w[j] * (yj - muHat) ** 2, 0);
+  };
+  const ours = (tau: number): number => logEvidence(1, flat, sites, Float64Array.of(tau));
+
+  it("matches BDA eq. 5.21 for the eight schools at every τ, up to one constant", () => {
+    const taus = [0.5, 2, 5, 10, 20, 40];
+    for (const tau of taus) expect(ours(tau) - ours(1)).toBeCloseTo(bda521(tau) - bda521(1), 6);
+  });
+
+  it("falls as τ grows for the eight schools, as BDA Figure 5.5 shows (mode at τ = 0)", () => {
+    const values = [1, 5, 10, 20].map(ours);
+    for (let i = 1; i < values.length; i++) expect(values[i]).toBeLessThan(values[i - 1]);
+  });
+});
+
+describe("the learned segment spread", () => {
+  // By construction (no outside source): two segments with the same truth must not learn a wider
+  // spread than the setting; two whose effect differs by 0.8 in log-odds must learn a wider one.
+  const design = page([2, 2]);
+  const settings = parseSettings({});
+  const sitesFor = (rateOf: (segment: string, c: number[]) => number) => {
+    const rng = createRng(11);
+    const rows = ["a", "b", "c"].flatMap((segment) =>
+      [[0, 0], [1, 0], [0, 1], [1, 1]].map((c) => {
+        const p = rateOf(segment, c);
+        let k = 0;
+        for (let i = 0; i < 20_000; i++) if (rng.next() < p) k++;
+        return { segment, combination: combinationKey(design, c), n: 20_000, k };
+      }),
+    );
+    return foldState({ design, settings, state: initialState(design), rows, now: 0 }).state.sites;
+  };
+  const rate = (logit: number) => 1 / (1 + Math.exp(-logit));
+
+  it("stays at or below the setting when segments agree", () => {
+    const sites = sitesFor((_, c) => rate(-3 + 0.2 * c[0] + 0.1 * c[1]));
+    expect(computePosteriors(design, settings, sites).segmentSpread).toBeLessThanOrEqual(settings.segmentSpread);
+  });
+
+  it("widens when one segment's effect has the opposite sign", () => {
+    const sites = sitesFor((s, c) => rate(-3 + (s === "b" ? -0.4 : 0.4) * c[0] + 0.1 * c[1]));
+    expect(computePosteriors(design, settings, sites).segmentSpread).toBeGreaterThan(settings.segmentSpread);
+  });
+
+  it("keeps the setting with a single segment, where τ is not identified", () => {
+    const sites = sitesFor((s, c) => rate(-3 + (s === "b" ? -0.4 : 0.4) * c[0]));
+    const one = new Map([["a", sites.get("a")!]]);
+    expect(computePosteriors(design, settings, one).segmentSpread).toBe(settings.segmentSpread);
   });
 });

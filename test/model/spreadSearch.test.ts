@@ -1,0 +1,44 @@
+import { describe, expect, it } from "vitest";
+import { logHyperprior, searchSpread, SPREAD_STEPS, spreadFactor } from "../../src/model/spreadSearch.ts";
+
+// The walk is checked against scores whose maximum is known by construction (no outside source).
+describe("the spread search", () => {
+  const counted = (evidence: (k: number) => number) => {
+    const calls: number[] = [];
+    const result = searchSpread((k) => {
+      calls.push(k);
+      return { logEvidence: evidence(k) };
+    });
+    return { ...result, calls };
+  };
+
+  it("keeps the setting when the data say nothing (flat evidence: the hyperprior decides)", () => {
+    expect(counted(() => 0).step).toBe(0);
+  });
+
+  it("finds the maximum of a concave score and evaluates each step at most once", () => {
+    for (const peak of [-3, -1, 2, 3]) {
+      const { step, calls } = counted((k) => -10 * (k - peak) ** 2);
+      expect(step).toBe(peak);
+      expect(new Set(calls).size).toBe(calls.length);
+    }
+  });
+
+  it("stops at the end of the grid", () => {
+    expect(counted((k) => 100 * k).step).toBe(SPREAD_STEPS);
+    expect(counted((k) => -100 * k).step).toBe(-SPREAD_STEPS);
+  });
+
+  it("needs evidence to outweigh the hyperprior: a gain smaller than the prior's cost does not move", () => {
+    const cost = logHyperprior(0) - logHyperprior(1);
+    expect(counted((k) => (k === 1 ? 0.9 * cost : 0)).step).toBe(0);
+    expect(counted((k) => (k === 1 ? 1.1 * cost : 0)).step).toBe(1);
+  });
+
+  it("puts the grid at the setting times 2^(k/2), with the hyperprior sd of log τ equal to ln 2", () => {
+    expect(spreadFactor(2)).toBeCloseTo(2, 12);
+    expect(spreadFactor(-4)).toBeCloseTo(0.25, 12);
+    // One sd (a factor of 2) away costs ½ in log density.
+    expect(logHyperprior(0) - logHyperprior(2)).toBeCloseTo(0.5, 12);
+  });
+});
