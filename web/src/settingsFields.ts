@@ -40,7 +40,7 @@ export const settingFields: Field[] = [
   { name: "retireAfterFolds", label: "…for this many updates in a row", unit: "count",
     help: "Guards against retiring on one unlucky update.", advanced: true },
   { name: "segmentSpread", label: "How far segments may differ", unit: "log-odds",
-    help: "Prior spread of a segment around the pooled model. Smaller = segments borrow more from each other.", advanced: true },
+    help: "Starting guess of how far a segment strays from the pooled model; the engine learns the actual spread from the data, within a quarter to four times this.", advanced: true },
   { name: "priorMainScale", label: "Typical effect of one level", unit: "log-odds",
     help: "Prior spread of a level's effect; one page element rarely moves conversion by more than this.", advanced: true },
   { name: "priorInteractionScale", label: "Typical size of an interaction", unit: "log-odds",
