@@ -7,6 +7,8 @@
  *   allocation1024Millis  the same for 1,024 allowed combinations
  *   fold10kD40Millis      one fold of 10,000 matured picks into a segment, d = 42
  *   fold10kD120Millis     the same at d = 119
+ *   posteriors200Millis   all posteriors of a 72-combination page with 200 segments (d = 27), the
+ *                         segment spread learned from them (the part of a fold that grows with segments)
  * The traffic is generated from an invented truth: it sets the workload, it checks nothing.
  */
 import { parseArgs } from "node:util";
@@ -27,6 +29,7 @@ import {
   type PageSettings,
   type Rng,
 } from "../model/index.ts";
+import { computePosteriors } from "../model/hierarchy.ts";
 import { numberFlag, parseFlags } from "../sim/cliOptions.ts";
 
 export const summary = "measure the engine's speed: pick draw, allocation rebuild, fold";
@@ -55,6 +58,7 @@ export interface BenchResult {
   allocation1024Millis: Figure;
   fold10kD40Millis: Figure;
   fold10kD120Millis: Figure;
+  posteriors200Millis: Figure;
 }
 
 function figure(values: number[]): Figure {
@@ -152,12 +156,20 @@ export function runBench(runs: number, seed: number): BenchResult {
   const fold40 = foldBench([3, 3, 3, 3, 2], runs);
   const fold120 = foldBench([4, 4, 4, 4, 5], Math.max(10, Math.round(runs / 2)));
 
+  // 200 segments (the default maxSegments), 1,000 picks each.
+  const segmentRows = Array.from({ length: 200 }, (_, s) => uniformPicks(d72, warm72.rate, rng, 1_000, `source-${s}`)).flat();
+  const manySites = foldState({ design: d72, settings, state: initialState(d72, settings), rows: segmentRows, now: 0 }).state.sites;
+  const posteriors200 = time(Math.max(10, Math.round(runs / 2)), 2, () => {
+    computePosteriors(d72, settings, manySites);
+  });
+
   return {
     pickDrawMicros: figure(picks),
     allocation72Millis: figure(allocation72),
     allocation1024Millis: figure(allocation1024),
     fold10kD40Millis: figure(fold40),
     fold10kD120Millis: figure(fold120),
+    posteriors200Millis: figure(posteriors200),
   };
 }
 
@@ -178,6 +190,7 @@ export async function run(argv: string[]): Promise<number> {
     ["allocation rebuild, 1,024 combinations, M=1000", result.allocation1024Millis, "ms", null],
     ["fold of 10,000 picks, d=42", result.fold10kD40Millis, "ms", 10],
     ["fold of 10,000 picks, d=119", result.fold10kD120Millis, "ms", null],
+    ["posteriors, 200 segments, d=27, spread learned", result.posteriors200Millis, "ms", null],
   ];
   const fmt = (x: number) => (x < 10 ? x.toFixed(3) : x.toFixed(1));
   console.log(`${"measure".padEnd(48)} ${"median".padStart(10)} ${"p99".padStart(10)}  unit  target`);
