@@ -30,6 +30,8 @@ export interface SegmentRoundInput {
   settings: PageSettings;
   segment: string;
   posterior: Gaussian;
+  /** τ the posterior was computed with (reported in the summary). */
+  segmentSpread: number;
   rng: Rng;
   now: number;
   frozen: boolean;
@@ -179,6 +181,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     expectedLossFraction: lossFraction,
     baseline,
     effects: factorEffects(design, posterior),
+    segmentSpread: input.segmentSpread,
   };
 
   if (summary.status === "settled") served = onLeader(served, leader.combination);

@@ -104,6 +104,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
       settings,
       segment,
       posterior: segment === POOLED ? post.star : post.segments.get(segment)!,
+      segmentSpread: post.segmentSpread,
       rng: createRng(mix32(input.seed) ^ hashString(segment)),
       now,
       frozen: input.frozen === true,

@@ -46,6 +46,8 @@ export interface SegmentSummary {
   expectedLossFraction: number;
   baseline: CombinationSummary;
   effects: FactorEffect[];
+  /** τ, the sd of a segment's effects around the pooled ones, as learned at this fold (log-odds). */
+  segmentSpread: number;
 }
 
 const Z975 = normalQuantile(0.975);

@@ -34,6 +34,7 @@ export interface SegmentReport {
   leader: CombinationReport | null; baseline: CombinationReport | null; top: CombinationReport[];
   expectedLoss: number | null; expectedLossFraction: number | null;
   effects: SegmentSummary["effects"];
+  segmentSpread: number | null;
   retired: { combination: string; reason: string; figures: Record<string, unknown>; retiredAt: string; reinstatedAt: string | null; reinstateReason: string | null }[];
   crossCheck: (ReturnType<typeof crossCheck> & { leader: Arm; baseline: Arm }) | null;
   calibration: ReturnType<typeof calibration> | null;
@@ -87,6 +88,7 @@ export class ReportService {
           leader, baseline, top: (summary?.top ?? []).map((c) => describe(c)!),
           expectedLoss: summary?.expectedLoss ?? null, expectedLossFraction: summary?.expectedLossFraction ?? null,
           effects: summary?.effects ?? [],
+          segmentSpread: summary?.segmentSpread ?? null,
           retired: retired.filter((r) => r.segment === segment).map((r) => {
             const { reinstateReason, ...figures } = r.figures as Record<string, unknown>;
             return {

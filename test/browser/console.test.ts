@@ -311,6 +311,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     await page.click("text=Send demo visitors");
     await expect.poll(() => page.textContent(".demo [role=status]")).toMatch(/Sending 2,000 visitors/);
     await page.waitForSelector("[data-testid=leader]", { timeout: 60_000 });
+    // the spread the last fold learned, in words (the demo's sources want different pages)
+    expect(await page.locator("[data-testid=segment-spread]").first().textContent()).toMatch(/by about ±\d\.\d\d in log-odds \(×\d\.\d\d–×\d\.\d\d in odds\)/);
     await page.waitForSelector("#tab-retired .count-pill:not([hidden])", { timeout: 90_000 });
     await shot("demo-results-1280");
     await readmeShot("results", ".tabs");

@@ -168,6 +168,9 @@ forEachDatabase("API routes", (open) => {
     expect(search.leader.rate.mean).toBeLessThanOrEqual(search.leader.rate.upper);
     expect(search.leader.levels.title.value).toMatch(/repairs/);
     expect(search.effects.map((e: { factor: string }) => e.factor)).toEqual(["title", "photo", "button"]);
+    // the learned spread lies on the grid: a quarter to four times the setting (spreadSearch.ts)
+    expect(search.segmentSpread).toBeGreaterThanOrEqual(0.25 * r.body.settings.segmentSpread - 1e-12);
+    expect(search.segmentSpread).toBeLessThanOrEqual(4 * r.body.settings.segmentSpread + 1e-12);
     const shares = Object.values(search.allocation as Record<string, number>).reduce((a, b) => a + b, 0);
     expect(shares).toBeGreaterThan(0.99);
     expect(shares).toBeLessThan(1.0001);

@@ -22,7 +22,7 @@ describe("Thompson allocation", () => {
     const settings = parseSettings({ samples: 20000, baselineShare: 0, explorationFloor: 0, thompsonScale: 1 });
     const cases: [number, number, number, number][] = [[-3, 0.2, -2.9, 0.3], [-3, 0.1, -3.2, 0.15], [-2, 0.5, -2, 0.5]];
     cases.forEach(([m0, s0, m1, s1], i) => {
-      const round = allocateSegment({ design, settings, segment: "s", posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(100 + i), now: 0, frozen: false, active: new Map(), counters: new Map() });
+      const round = allocateSegment({ design, settings, segment: "s", segmentSpread: 0.1, posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(100 + i), now: 0, frozen: false, active: new Map(), counters: new Map() });
       const expected = jStat.normal.cdf((m1 - m0) / Math.sqrt(s0 * s0 + s1 * s1), 0, 1);
       const key1 = combinationKey(design, [1]);
       expect(Math.abs(propensityOf(round.allocation, key1) - expected)).toBeLessThan(4 * 0.0036);
@@ -40,7 +40,7 @@ describe("Thompson allocation", () => {
     const spread = Math.sqrt(s0 * s0 + s1 * s1);
     for (const [alpha, seed] of [[0.5, 7], [0.25, 8]]) {
       const settings = parseSettings({ samples: 20000, baselineShare: 0, explorationFloor: 0, thompsonScale: alpha });
-      const round = allocateSegment({ design, settings, segment: "s", posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(seed), now: 0, frozen: false, active: new Map(), counters: new Map() });
+      const round = allocateSegment({ design, settings, segment: "s", segmentSpread: 0.1, posterior: twoArmPosterior(m0, s0, m1, s1), rng: createRng(seed), now: 0, frozen: false, active: new Map(), counters: new Map() });
       expect(Math.abs(propensityOf(round.allocation, key1) - jStat.normal.cdf((m1 - m0) / (alpha * spread), 0, 1))).toBeLessThan(4 * 0.0036);
       const reported = round.summary.top.find((c) => c.combination === key1)!.probabilityBest;
       expect(Math.abs(reported - jStat.normal.cdf((m1 - m0) / spread, 0, 1))).toBeLessThan(4 * 0.0036);
@@ -53,7 +53,7 @@ describe("Thompson allocation", () => {
     // thompsonScale 1: the Thompson share is then the reported probability of being best.
     const settings = parseSettings({ samples: 4000, baselineShare: 0.1, explorationFloor: 0.2, thompsonScale: 1 });
     const posterior = { precision: Float64Array.from([25, 0, 0, 0, 25, 0, 0, 0, 25]), mean: Float64Array.from([-3, 0.3, 0.1]) };
-    const round = allocateSegment({ design, settings, segment: "s", posterior: { ...posterior, chol: factorSpd(posterior.precision.slice(), 3, "test") }, rng: createRng(3), now: 0, frozen: false, active: new Map(), counters: new Map() });
+    const round = allocateSegment({ design, settings, segment: "s", segmentSpread: 0.1, posterior: { ...posterior, chol: factorSpd(posterior.precision.slice(), 3, "test") }, rng: createRng(3), now: 0, frozen: false, active: new Map(), counters: new Map() });
     const ts = new Map(round.summary.top.map((c) => [c.combination, c.probabilityBest]));
     let total = 0;
     for (let l = 0; l < 3; l++) {
@@ -74,7 +74,7 @@ describe("Thompson allocation", () => {
     const settings = parseSettings({ samples: 2000, baselineShare: 0.1, explorationFloor: 0.2 });
     const precision = Float64Array.from([40000, 0, 0, 0, 40000, 0, 0, 0, 40000]);
     const posterior = { precision, mean: Float64Array.from([-3, 1.3, 1.3]), chol: factorSpd(precision.slice(), 3, "test") };
-    const round = allocateSegment({ design, settings, segment: "s", posterior, rng: createRng(5), now: 0, frozen: false, active: new Map(), counters: new Map() });
+    const round = allocateSegment({ design, settings, segment: "s", segmentSpread: 0.1, posterior, rng: createRng(5), now: 0, frozen: false, active: new Map(), counters: new Map() });
     expect(round.summary.settledBy).toBe("loss");
     expect(round.summary.leader.probabilityBest).toBeLessThan(0.7);
     const leader = round.summary.leader.combination;

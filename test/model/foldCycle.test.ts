@@ -1,5 +1,6 @@
 import { describe, expect, it } from "vitest";
 import { combinationKey, foldCycle, initialState, parseSettings, propensityOf, type RetiredEntry } from "../../src/model/index.ts";
+import { computePosteriors } from "../../src/model/hierarchy.ts";
 import { page } from "./engineFixtures.ts";
 
 const DAY = 86_400_000;
@@ -22,6 +23,20 @@ describe("foldCycle", () => {
     expect(lean.summaries.b).toEqual(full.summaries.b);
     const unseen = foldCycle({ ...input, segments: ["a", "b", "c"], pooled: false });
     expect(unseen.allocations.c.keys).toEqual(full.allocations["*"].keys);
+  });
+
+  it("reports in every summary the segment spread its posteriors were computed with", () => {
+    const design = page([3, 2]);
+    const settings = parseSettings({});
+    const rows = ["a", "b"].flatMap((segment, i) => [
+      { segment, combination: combinationKey(design, [1, 0]), n: 5000, k: i === 0 ? 100 : 300 },
+      { segment, combination: combinationKey(design, [2, 1]), n: 5000, k: i === 0 ? 300 : 100 },
+    ]);
+    const out = foldCycle({ design, settings, state: initialState(design, settings), rows, now: 0, retired: [], seed: 4, segments: ["a", "b"] });
+    const expected = computePosteriors(design, settings, out.state.sites).segmentSpread;
+    // Opposite winners in a and b: the spread must have left the setting for this to mean anything.
+    expect(expected).toBeGreaterThan(settings.segmentSpread);
+    for (const s of ["a", "b", "*"]) expect(out.summaries[s].segmentSpread).toBe(expected);
   });
 
   it("retires a dominated combination after retireAfterFolds folds and reinstates it after forgetting", () => {

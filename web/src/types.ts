@@ -108,6 +108,8 @@ export interface SegmentReport {
   expectedLoss: number | null;
   expectedLossFraction: number | null;
   effects: FactorEffect[];
+  /** Learned sd of a segment's effects around the pooled ones (log-odds); null before the first fold. */
+  segmentSpread: number | null;
   retired: RetiredReport[];
   crossCheck: CrossCheck | null;
   calibration: Calibration | null;

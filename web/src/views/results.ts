@@ -293,6 +293,8 @@ function effectsCard(seg: SegmentReport, ui: UiState, width: number): HTMLElemen
     h("h3", { id: "effects-title" }, "What each factor does"),
     h("p", { class: "hint" }, "Each level compared with the factor's first level, as odds ratios with 95 % intervals: right of the line helps, left hurts. Averaged over the other factors; pairs can still work differently together."),
     grid,
+    seg.segmentSpread === null ? null : h("p", { class: "hint", "data-testid": "segment-spread" },
+      `Traffic sources differ: a level's effect in one source strays from its effect over all sources by about ±${seg.segmentSpread.toFixed(2)} in log-odds (×${ratio(Math.exp(-seg.segmentSpread))}–×${ratio(Math.exp(seg.segmentSpread))} in odds), as learned from every source's data at the last update.`),
     panelDetails(ui, "effects-help", "How to read odds ratios", h("p", null,
       "An odds ratio of ×1.20 means the level raises the odds of converting by about a fifth compared with the reference level; at low conversion rates that is roughly a fifth more conversions. An interval crossing ×1 means the data cannot yet tell whether it helps.")),
   );
