@@ -3,8 +3,9 @@
  *   1. forgetting: every site is scaled by 2^(−Δt/half-life) (forgetting.ts);
  *   2. fold: the rows are merged per (segment, combination) and each segment with rows runs a
  *      Laplace update under its current posterior, adding the information to its site (fold.ts);
- *   3. posteriors of the pooled model, of a new segment ("*") and of every requested segment
- *      (hierarchy.ts);
+ *   3. the segment spread τ is learned from the sites, starting from the last cycle's, and the
+ *      posteriors of the pooled model, of a new segment ("*") and of every requested segment
+ *      are computed under it (hierarchy.ts, spreadSearch.ts);
  *   4. per requested segment and "*": Thompson allocation, summary and retirement
  *      (allocateSegment.ts). Segments without a site of their own are served "*"'s allocation.
  * Pure: `now` and `seed` are inputs, the input state is not modified, and each segment draws from
@@ -67,7 +68,8 @@ export function foldState(input: Pick<FoldCycleInput, "design" | "settings" | "s
   const grouped = groupRows(design, input.rows, forgotten.sites, settings.maxSegments);
   const sites = new Map(forgotten.sites);
   if (grouped.bySegment.size > 0) {
-    const before = computePosteriors(design, settings, forgotten.sites, grouped.bySegment.keys());
+    // The posterior the new data update is the one served since the last cycle: same τ, no search.
+    const before = computePosteriors(design, settings, forgotten.sites, grouped.bySegment.keys(), { tau: input.state.segmentSpread, learn: false });
     for (const [segment, rows] of grouped.bySegment) {
       sites.set(segment, foldSegment(design, segmentPosterior(before, segment), forgotten.sites.get(segment), rows, segment));
     }
@@ -82,7 +84,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   const { sites } = folded.state;
   const requested = [...new Set(input.segments)].filter((s) => s !== POOLED && s !== OVERFLOW_SITE);
   const own = requested.filter((s) => sites.has(s));
-  const post = computePosteriors(design, settings, sites, own);
+  const post = computePosteriors(design, settings, sites, own, { tau: folded.state.segmentSpread, learn: true });
 
   const activeBySegment = new Map<string, Map<string, RetiredEntry>>();
   for (const entry of input.retired) {
@@ -130,5 +132,5 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   });
   retired.push(...newlyRetired);
 
-  return { state: { ...folded.state, dominated }, allocations, summaries, retired, skipped: folded.skipped };
+  return { state: { ...folded.state, dominated, segmentSpread: post.segmentSpread }, allocations, summaries, retired, skipped: folded.skipped };
 }

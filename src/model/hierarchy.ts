@@ -31,7 +31,7 @@ import type { Design } from "./design.ts";
 import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts";
 import { priorFor, type DiagonalPrior } from "./prior.ts";
 import type { PageSettings } from "./settings.ts";
-import { searchSpread, spreadFactor } from "./spreadSearch.ts";
+import { nearestStep, searchSpread, spreadFactor } from "./spreadSearch.ts";
 import type { Site } from "./state.ts";
 
 /** A Gaussian N(mean, precision⁻¹) with the Cholesky factor of its precision. */
@@ -148,19 +148,37 @@ export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, 
 }
 
 /**
- * Posteriors of the pooled model, of a new segment, and of the segments in `only` (default:
- * every site), under the learned segment spread.
+ * Which τ to use: `tau` as it is (`learn` false), or learned by a search that starts at the grid
+ * step nearest `tau` (`learn` true). A null `tau` means the segmentSpread setting.
  */
-export function computePosteriors(design: Design, settings: PageSettings, sites: Map<string, Site>, only?: Iterable<string>): Posteriors {
+export interface SpreadChoice {
+  tau: number | null;
+  learn: boolean;
+}
+
+/**
+ * Posteriors of the pooled model, of a new segment, and of the segments in `only` (default:
+ * every site), under the chosen segment spread (default: learned, starting from the setting).
+ */
+export function computePosteriors(
+  design: Design,
+  settings: PageSettings,
+  sites: Map<string, Site>,
+  only?: Iterable<string>,
+  choice: SpreadChoice = { tau: null, learn: true },
+): Posteriors {
   const d = design.dimension;
-  const base = segmentSpreads(design, settings);
   const prior = priorFor(design, settings);
-  const scaled = (k: number): Pooled =>
-    poolSites(d, prior, sites, k === 0 ? base : base.map((x, i) => (i === 0 ? x : x * spreadFactor(k))));
+  const at = (tau: number): Pooled => poolSites(d, prior, sites, segmentSpreads(design, settings, tau));
   // τ is not identified from fewer than two segments with data: keep the setting.
   let withData = 0;
   for (const site of sites.values()) if (site.visitors > 0) withData++;
-  const { spread, terms, pBeta, hBeta, pooled } = withData >= 2 ? searchSpread(scaled).value : scaled(0);
+  const setting = settings.segmentSpread;
+  const { spread, terms, pBeta, hBeta, pooled } = !choice.learn
+    ? at(choice.tau ?? setting)
+    : withData < 2
+      ? at(setting)
+      : searchSpread((k) => at(setting * spreadFactor(k)), nearestStep(choice.tau, setting)).value;
   const starTerm = widen(pBeta, d, spread, hBeta, "the new-segment posterior");
   const star = gaussianFromNatural(starTerm.m, starTerm.v, d, "the new-segment posterior");
 
@@ -180,15 +198,15 @@ export function computePosteriors(design: Design, settings: PageSettings, sites:
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments, segmentSpread: spread.length > 1 ? spread[1] : settings.segmentSpread };
+  return { pooled, star, segments, segmentSpread: spread.length > 1 ? spread[1] : setting };
 }
 
 /**
  * Prior sd of δ_s per coefficient: segmentInterceptSpread for the intercept (traffic sources differ
- * most in their overall level), segmentSpread for every effect.
+ * most in their overall level), τ (default: the segmentSpread setting) for every effect.
  */
-export function segmentSpreads(design: Design, settings: PageSettings): Float64Array {
-  const spread = new Float64Array(design.dimension).fill(settings.segmentSpread);
+export function segmentSpreads(design: Design, settings: PageSettings, tau = settings.segmentSpread): Float64Array {
+  const spread = new Float64Array(design.dimension).fill(tau);
   spread[0] = settings.segmentInterceptSpread;
   return spread;
 }

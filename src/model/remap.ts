@@ -118,5 +118,5 @@ export function remapState(state: ModelState, oldDesign: Design, newDesign: Desi
   const mapping = featureMapping(oldDesign, newDesign);
   const sites = new Map<string, Site>();
   for (const [segment, site] of state.sites) sites.set(segment, remapSite(site, mapping, oldDesign.dimension, newDesign.dimension));
-  return { version: 1, featureNames: newDesign.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated: new Map() };
+  return { version: 1, featureNames: newDesign.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated: new Map(), segmentSpread: state.segmentSpread };
 }

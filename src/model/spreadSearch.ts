@@ -9,9 +9,10 @@
  * maximum is type-II maximum likelihood (Berger, Statistical Decision Theory and Bayesian
  * Analysis, 2nd ed. 1985, §4.5) — here with the hyperprior added, so a MAP.
  *
- * The search walks from k = 0 towards the better neighbour until neither improves: a handful of
- * evaluations, each of which costs one pass of the hierarchy. The score is unimodal in log τ in every
- * case we ran; where it is not, the walk still returns a local maximum no worse than the setting.
+ * The search walks from the step the previous fold chose (k = 0 at first) towards the better
+ * neighbour until neither improves: usually three evaluations, each one pass of the hierarchy. The
+ * score is unimodal in log τ in every case we ran; where it is not, the walk still returns a local
+ * maximum no worse than its start.
  */
 
 export const SPREAD_STEPS = 4;
@@ -29,21 +30,28 @@ export function logHyperprior(k: number): number {
   return -0.5 * z * z;
 }
 
+/** The grid step nearest τ (0 for null or a zero setting), within the grid. */
+export function nearestStep(tau: number | null, setting: number): number {
+  if (tau === null || !(tau > 0) || !(setting > 0)) return 0;
+  const k = Math.round(2 * Math.log2(tau / setting));
+  return Math.max(-SPREAD_STEPS, Math.min(SPREAD_STEPS, k));
+}
+
 /**
- * The grid step with the highest `logEvidence(k) + logHyperprior(k)`, found by walking from 0,
- * and what `evaluate` returned for it. `evaluate` is called at most once per step.
+ * The grid step with the highest `logEvidence(k) + logHyperprior(k)`, found by walking from
+ * `start`, and what `evaluate` returned for it. `evaluate` is called at most once per step.
  */
-export function searchSpread<T extends { logEvidence: number }>(evaluate: (k: number) => T): { step: number; value: T } {
+export function searchSpread<T extends { logEvidence: number }>(evaluate: (k: number) => T, start = 0): { step: number; value: T } {
   const seen = new Map<number, T>();
   const score = (k: number): number => {
     let v = seen.get(k);
     if (!v) seen.set(k, (v = evaluate(k)));
     return v.logEvidence + logHyperprior(k);
   };
-  let k = 0;
-  let here = score(0);
-  const up = score(1);
-  const down = score(-1);
+  let k = start;
+  let here = score(k);
+  const up = k < SPREAD_STEPS ? score(k + 1) : -Infinity;
+  const down = k > -SPREAD_STEPS ? score(k - 1) : -Infinity;
   const direction = up > here && up >= down ? 1 : down > here ? -1 : 0;
   if (direction !== 0) {
     k += direction;

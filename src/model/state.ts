@@ -34,6 +34,11 @@ export interface ModelState {
   sites: Map<string, Site>;
   /** segment → combination key → consecutive folds the combination met the retirement rule. */
   dominated: Map<string, Map<string, number>>;
+  /**
+   * τ the last fold cycle learned (spreadSearch.ts): the posteriors served until the next fold use
+   * it, and the next search starts from it. null before the first cycle.
+   */
+  segmentSpread: number | null;
 }
 
 export function emptySite(d: number): Site {
@@ -45,7 +50,7 @@ export function copySite(site: Site): Site {
 }
 
 export function initialState(design: Design, _settings?: PageSettings): ModelState {
-  return { version: 1, featureNames: design.featureNames.slice(), lastFoldAt: null, sites: new Map(), dominated: new Map() };
+  return { version: 1, featureNames: design.featureNames.slice(), lastFoldAt: null, sites: new Map(), dominated: new Map(), segmentSpread: null };
 }
 
 interface SerializedSite {
@@ -62,6 +67,8 @@ interface SerializedState {
   lastFoldAt: number | null;
   sites: SerializedSite[];
   dominated: Record<string, Record<string, number>>;
+  /** Absent in snapshots written before the spread was learned. */
+  segmentSpread?: number | null;
 }
 
 export function serializeState(state: ModelState): SerializedState {
@@ -74,7 +81,7 @@ export function serializeState(state: ModelState): SerializedState {
   }
   const dominated: Record<string, Record<string, number>> = {};
   for (const [segment, counts] of state.dominated) dominated[segment] = Object.fromEntries(counts);
-  return { version: 1, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated };
+  return { version: 1, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated, segmentSpread: state.segmentSpread };
 }
 
 export function deserializeState(json: unknown): ModelState {
@@ -116,7 +123,11 @@ export function deserializeState(json: unknown): ModelState {
       dominated.set(segment, new Map(Object.entries(counts).filter((e): e is [string, number] => typeof e[1] === "number")));
     }
   }
-  return { version: 1, featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt, sites, dominated };
+  const segmentSpread = s.segmentSpread ?? null;
+  if (segmentSpread !== null && !(typeof segmentSpread === "number" && Number.isFinite(segmentSpread) && segmentSpread >= 0)) {
+    throw bad("segmentSpread must be a non-negative number or null");
+  }
+  return { version: 1, featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt, sites, dominated, segmentSpread };
 }
 
 /** Throws INVALID_MODEL_STATE when a state was built for a different design. */

@@ -37,6 +37,8 @@ describe("foldCycle", () => {
     // Opposite winners in a and b: the spread must have left the setting for this to mean anything.
     expect(expected).toBeGreaterThan(settings.segmentSpread);
     for (const s of ["a", "b", "*"]) expect(out.summaries[s].segmentSpread).toBe(expected);
+    // kept in the state: reports and the next fold's update use it, the next search starts there
+    expect(out.state.segmentSpread).toBe(expected);
   });
 
   it("retires a dominated combination after retireAfterFolds folds and reinstates it after forgetting", () => {

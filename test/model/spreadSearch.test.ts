@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { logHyperprior, searchSpread, SPREAD_STEPS, spreadFactor } from "../../src/model/spreadSearch.ts";
+import { logHyperprior, nearestStep, searchSpread, SPREAD_STEPS, spreadFactor } from "../../src/model/spreadSearch.ts";
 
 // The walk is checked against scores whose maximum is known by construction (no outside source).
 describe("the spread search", () => {
@@ -22,6 +22,27 @@ describe("the spread search", () => {
       expect(step).toBe(peak);
       expect(new Set(calls).size).toBe(calls.length);
     }
+  });
+
+  it("starts where it is told (the last fold's step) and reaches the same maximum", () => {
+    for (const start of [-4, -1, 0, 3, 4]) {
+      const calls: number[] = [];
+      const { step } = searchSpread((k) => (calls.push(k), { logEvidence: -10 * (k - 2) ** 2 }), start);
+      expect(step).toBe(2);
+      expect(calls[0]).toBe(start);
+    }
+    // started at the maximum it only looks at the two neighbours
+    let evaluations = 0;
+    searchSpread((k) => (evaluations++, { logEvidence: -10 * (k - 2) ** 2 }), 2);
+    expect(evaluations).toBe(3);
+  });
+
+  it("maps a τ to the nearest grid step, clamped to the grid", () => {
+    expect(nearestStep(null, 0.1)).toBe(0);
+    expect(nearestStep(0.1 * Math.SQRT2, 0.1)).toBe(1);
+    expect(nearestStep(0.05, 0.1)).toBe(-2);
+    expect(nearestStep(10, 0.1)).toBe(SPREAD_STEPS);
+    expect(nearestStep(0.07, 0)).toBe(0);
   });
 
   it("stops at the end of the grid", () => {

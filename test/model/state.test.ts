@@ -52,6 +52,15 @@ describe("state", () => {
     expect([...back.sites.get("s")!.eta]).toEqual([...state.sites.get("s")!.eta]);
   });
 
+  it("keeps the learned segment spread, and reads snapshots written before it existed as null", () => {
+    const design = buildDesign(base);
+    const state = { ...initialState(design, settings), segmentSpread: 0.0707 };
+    expect(deserializeState(JSON.parse(JSON.stringify(serializeState(state)))).segmentSpread).toBe(0.0707);
+    const { segmentSpread: _, ...older } = serializeState(state);
+    expect(deserializeState(older).segmentSpread).toBeNull();
+    expect(() => deserializeState({ ...older, segmentSpread: -1 })).toThrowError(/segmentSpread must be a non-negative number/);
+  });
+
   it("rejects a malformed stored state and a state of another definition", () => {
     expect(() => deserializeState({ version: 2 })).toThrowError(FacetwiseError);
     const design = buildDesign(base);
