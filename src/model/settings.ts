@@ -43,7 +43,7 @@
  *   τ = 0.1 fixed      805        785            606         522        919 (0.80)
  *   τ = 0.07 fixed     778        677          1,017         419        884 (0.90)
  *   τ = 0.05 fixed     750        592            736         534        841 (0.75)
- *   τ learned          731        550            499         459        830 (0.95)
+ *   τ learned          731        550            499         459        835 (0.95)
  * Smaller fixed spreads pool faster but leave runs stuck where one segment truly differs
  * (three-factor's social segment: runs of 2,678 and 2,376); the learned spread pools where the
  * segments agree and lets go where they do not, and was best or near best on every scenario.
