@@ -1,7 +1,7 @@
 /**
  * From sites to posteriors: the hierarchical model θ_s = β + δ_s, δ_s ~ N(0, T), β ~ N(μ0, P0⁻¹),
- * T = diag(τ0², τ², …, τ²) (τ0 = segmentInterceptSpread for the intercept, τ = segmentSpread for
- * every effect), where segment s's data enter only through its Gaussian site (Λ_s, η_s) — the
+ * T = diag(τ0², τ², …, τ²) (τ0 = segmentInterceptSpread for the intercept, τ for every effect:
+ * learned around segmentSpread, see below), where segment s's data enter only through its Gaussian site (Λ_s, η_s) — the
  * accumulated information of its folds about θ_s (see fold.ts). Each segment's data are counted
  * once: in the pooled posterior through δ_s's extra variance, and in the segment's own posterior
  * through a leave-one-out prior that excludes them.
