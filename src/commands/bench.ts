@@ -22,6 +22,7 @@ import {
   parseSettings,
   pickFrom,
   quantileInPlace,
+  sitesOf,
   type Allocation,
   type Design,
   type FoldRow,
@@ -158,7 +159,7 @@ export function runBench(runs: number, seed: number): BenchResult {
 
   // 200 segments (the default maxSegments), 1,000 picks each.
   const segmentRows = Array.from({ length: 200 }, (_, s) => uniformPicks(d72, warm72.rate, rng, 1_000, `source-${s}`)).flat();
-  const manySites = foldState({ design: d72, settings, state: initialState(d72, settings), rows: segmentRows, now: 0 }).state.sites;
+  const manySites = sitesOf(foldState({ design: d72, settings, state: initialState(d72, settings), rows: segmentRows, now: 0 }).state);
   const posteriors200 = time(Math.max(10, Math.round(runs / 2)), 2, () => {
     computePosteriors(d72, settings, manySites);
   });

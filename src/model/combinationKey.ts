@@ -32,3 +32,26 @@ export function parseCombinationKey(design: Design, key: string): Combination {
     return l;
   });
 }
+
+/**
+ * A key written under an earlier definition of the page, read under this one by factor and level
+ * names: a factor the key does not name takes its first level (the reference level — what the page
+ * showed before that factor existed), factors the page no longer has are ignored, and the result is
+ * null when a level the key names no longer exists. Keys of the current definition come back as
+ * they are. Page edits re-key their counts with it (remap.ts).
+ */
+export function rekey(design: Design, key: string): string | null {
+  const named = new Map<string, string>();
+  for (const part of key.split("|")) {
+    const eq = part.indexOf("=");
+    if (eq > 0) named.set(part.slice(0, eq), part.slice(eq + 1));
+  }
+  const c: number[] = [];
+  for (const factor of design.factors) {
+    const level = named.get(factor.name);
+    const l = level === undefined ? 0 : factor.levels.indexOf(level);
+    if (l < 0) return null;
+    c.push(l);
+  }
+  return combinationKey(design, c);
+}

@@ -11,15 +11,15 @@ import { linearPredictor } from "./linearPredictor.ts";
 import { createRng } from "./rng.ts";
 import { drawSamples } from "./sampling.ts";
 import type { PageSettings } from "./settings.ts";
-import { checkStateMatches, type ModelState } from "./state.ts";
+import { checkStateMatches, type ModelState, sitesOf } from "./state.ts";
 import { rateFromScores, type RateInterval } from "./summary.ts";
 
 export function combinationRates(input: { design: Design; settings: PageSettings; state: ModelState; segment: string; combinations: string[]; seed: number }): Record<string, RateInterval> {
   const { design, settings, state, segment } = input;
   checkStateMatches(state, design);
   const combos = input.combinations.map((key) => parseCombinationKey(design, key));
-  const own = segment !== "*" && state.sites.has(segment) ? [segment] : [];
-  const posterior = segmentPosterior(computePosteriors(design, settings, state.sites, own, { tau: state.segmentSpread, learn: false }), own.length > 0 ? segment : "*");
+  const own = segment !== "*" && state.segments.has(segment) ? [segment] : [];
+  const posterior = segmentPosterior(computePosteriors(design, settings, sitesOf(state), own, { tau: state.segmentSpread, learn: false }), own.length > 0 ? segment : "*");
   const d = design.dimension;
   const M = settings.samples;
   const samples = drawSamples(posterior, d, M, createRng(input.seed));

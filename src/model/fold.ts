@@ -1,28 +1,20 @@
 /**
- * The fold: new trials and new conversions, aggregated into (segment, combination, n, k) rows,
- * update each segment's site. A pick counts as a trial (n) in the first fold after it is served
- * and its conversion (k) in the first fold after it is reported, so k may exceed n within one row.
- * The log-likelihood k·log σ(η) + (n−k)·log(1−σ(η)) = k·η + n·log(1−σ(η)) is linear in (n, k):
- * summed over folds it equals the full-data likelihood, and its Hessian n·p(1−p)·xxᵀ does not
- * involve k, so every fold stays a convex problem for any n ≥ 0, k ≥ 0 (Bishop, Pattern
- * Recognition and Machine Learning, 2006, §4.3.2–4.5: logistic log-likelihood and its Hessian,
- * Laplace approximation). For a segment with current posterior N(μ_cur, P_cur⁻¹) (hierarchy.ts) the
- * Laplace fit under that prior gives (μ_new, P_new) with P_new = P_cur + D, D = Σ n p(1−p) x xᵀ
- * at the mode (newton.ts); the site then absorbs exactly what the fold added:
- *   Λ_s += P_new − P_cur = D,   η_s += P_new μ_new − P_cur μ_cur = P_cur(μ_new − μ_cur) + D μ_new,
- * the assumed-density-filtering update of a Gaussian site (Opper, "A Bayesian approach to on-line
- * learning", in On-line Learning in Neural Networks, 1998; Minka 2001, ch. 3).
- * Rows are merged by combination first, which is lossless for categorical features.
+ * The fold's input side: new trials and new conversions, as (segment, combination, n, k) rows,
+ * validated, routed to the segment that learns from them and merged per combination. A pick counts
+ * as a trial (n) in the first fold after it is served and its conversion (k) in the first fold after
+ * it is reported, so k may exceed n within one row. The log-likelihood
+ * k·log σ(η) + (n−k)·log(1−σ(η)) = k·η + n·log(1−σ(η)) is linear in (n, k), so adding a fold's rows
+ * to the counts (counts.ts) gives exactly the full-data likelihood whatever the timing (Bishop,
+ * Pattern Recognition and Machine Learning, 2006, §4.3.2), and its Hessian n·p(1−p)·xxᵀ does not
+ * involve k, so the fit stays convex for any n ≥ 0, k ≥ 0.
  *
  * Segments beyond `maxSegments` (new ones, fewest visitors first) and rows of segment "*" share
- * one overflow site: their data inform the pooled model, and they are served from it.
+ * one overflow segment: their data inform the pooled model, and they are served from it.
  */
-import { fail, FacetwiseError } from "../errors.ts";
-import { parseCombinationKey } from "./combinationKey.ts";
-import { type Design, writeActiveFeatures } from "./design.ts";
-import type { Gaussian } from "./hierarchy.ts";
-import { laplaceFit, type RowBlock } from "./newton.ts";
-import { copySite, emptySite, OVERFLOW_SITE, type Site } from "./state.ts";
+import { fail } from "../errors.ts";
+import { featuresOf } from "./counts.ts";
+import type { Design } from "./design.ts";
+import { OVERFLOW_SITE } from "./state.ts";
 
 export interface FoldRow {
   segment: string;
@@ -34,20 +26,15 @@ export interface FoldRow {
   k: number;
 }
 
-export interface SegmentRows {
-  block: RowBlock;
-  visitors: number;
-  conversions: number;
-}
-
 export interface GroupedRows {
-  bySegment: Map<string, SegmentRows>;
+  /** Routed segment → combination key → [n, k], only keys of the design. */
+  bySegment: Map<string, Map<string, [number, number]>>;
   /** Rows whose combination key does not belong to the design (e.g. a removed level). */
   skipped: { rows: number; visitors: number };
 }
 
 /** Validates rows, routes segments (overflow beyond maxSegments) and merges rows per combination. */
-export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Site>, maxSegments: number): GroupedRows {
+export function groupRows(design: Design, rows: FoldRow[], tracked: ReadonlyMap<string, unknown>, maxSegments: number): GroupedRows {
   const perSegment = new Map<string, Map<string, [number, number]>>();
   const skipped = { rows: 0, visitors: 0 };
   // Rows usually arrive grouped by segment: remember the last segment's map.
@@ -80,32 +67,14 @@ export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Si
   }
 
   // Route segments: known sites keep theirs; new ones are admitted by volume until maxSegments.
-  let tracked = 0;
-  for (const key of sites.keys()) if (key !== OVERFLOW_SITE) tracked++;
+  let trackedCount = 0;
+  for (const key of tracked.keys()) if (key !== OVERFLOW_SITE) trackedCount++;
   const route = new Map<string, string>();
   const newcomers = [...perSegment.keys()]
-    .filter((s) => s !== OVERFLOW_SITE && !sites.has(s))
+    .filter((s) => s !== OVERFLOW_SITE && !tracked.has(s))
     .sort((a, b) => visitorsBySegment.get(b)! - visitorsBySegment.get(a)! || (a < b ? -1 : 1));
-  for (const s of perSegment.keys()) if (s === OVERFLOW_SITE || sites.has(s)) route.set(s, s);
-  for (const s of newcomers) route.set(s, tracked < maxSegments ? (tracked++, s) : OVERFLOW_SITE);
-
-  const m = design.activeCount;
-  const features = new Map<string, Int32Array | null>();
-  const featuresOf = (key: string): Int32Array | null => {
-    let x = features.get(key);
-    if (x === undefined) {
-      try {
-        const c = parseCombinationKey(design, key);
-        x = new Int32Array(m);
-        writeActiveFeatures(design, c, x, 0);
-      } catch (error) {
-        if (!(error instanceof FacetwiseError)) throw error;
-        x = null;
-      }
-      features.set(key, x);
-    }
-    return x;
-  };
+  for (const s of perSegment.keys()) if (s === OVERFLOW_SITE || tracked.has(s)) route.set(s, s);
+  for (const s of newcomers) route.set(s, trackedCount < maxSegments ? (trackedCount++, s) : OVERFLOW_SITE);
 
   const merged = new Map<string, Map<string, [number, number]>>();
   for (const [segment, combos] of perSegment) {
@@ -113,7 +82,7 @@ export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Si
     let into = merged.get(target);
     if (!into) merged.set(target, (into = new Map()));
     for (const [key, [n, k]] of combos) {
-      if (featuresOf(key) === null) {
+      if (featuresOf(design, key) === null) {
         skipped.rows++;
         skipped.visitors += n;
         continue;
@@ -126,41 +95,6 @@ export function groupRows(design: Design, rows: FoldRow[], sites: Map<string, Si
     }
   }
 
-  const bySegment = new Map<string, SegmentRows>();
-  for (const [segment, combos] of merged) {
-    if (combos.size === 0) continue;
-    const count = combos.size;
-    const block: RowBlock = { count, m, idx: new Int32Array(count * m), x: new Float64Array(count * m).fill(1), n: new Float64Array(count), k: new Float64Array(count) };
-    let r = 0;
-    let visitors = 0;
-    let conversions = 0;
-    for (const [key, [n, k]] of combos) {
-      block.idx.set(featuresOf(key)!, r * m);
-      block.n[r] = n;
-      block.k[r] = k;
-      visitors += n;
-      conversions += k;
-      r++;
-    }
-    bySegment.set(segment, { block, visitors, conversions });
-  }
-  return { bySegment, skipped };
-}
-
-/** Folds one segment's rows into its site, with the segment's current posterior as the Newton prior. */
-export function foldSegment(design: Design, current: Gaussian, site: Site | undefined, rows: SegmentRows, segment: string): Site {
-  const d = design.dimension;
-  const fit = laplaceFit({ precision: current.precision, mean: current.mean }, d, rows.block, `the fold of segment "${segment}"`);
-  const next = site ? copySite(site) : emptySite(d);
-  for (let i = 0; i < d * d; i++) next.lambda[i] += fit.dataPrecision[i];
-  const pCur = current.precision;
-  for (let i = 0; i < d; i++) {
-    let acc = 0;
-    for (let j = 0; j < d; j++) acc += pCur[i * d + j] * (fit.mode[j] - current.mean[j]) + fit.dataPrecision[i * d + j] * fit.mode[j];
-    next.eta[i] += acc;
-  }
-  next.visitors += rows.visitors;
-  next.conversions += rows.conversions;
-  next.folds += 1;
-  return next;
+  for (const [segment, combos] of merged) if (combos.size === 0) merged.delete(segment);
+  return { bySegment: merged, skipped };
 }

@@ -1,11 +1,12 @@
 /**
  * One fold cycle — the only entry point the server's fold loop and the simulator use:
- *   1. forgetting: every site is scaled by 2^(−Δt/half-life) (forgetting.ts);
- *   2. fold: the rows are merged per (segment, combination) and each segment with rows runs a
- *      Laplace update under its current posterior, adding the information to its site (fold.ts);
- *   3. the segment spread τ is learned from the sites, starting from the last cycle's, and the
- *      posteriors of the pooled model, of a new segment ("*") and of every requested segment
- *      are computed under it (hierarchy.ts, spreadSearch.ts);
+ *   1. forgetting: every segment's counts are scaled by 2^(−Δt/half-life) (forgetting.ts);
+ *   2. fold: the rows are routed and merged per (segment, combination) and added to the counts
+ *      (fold.ts, counts.ts);
+ *   3. refit: every segment's mode of prior × all its counts, the pooled model and the segment
+ *      spread τ are fitted jointly from the counts, warm-started from the last cycle's modes and τ
+ *      (refit.ts, hierarchy.ts, spreadSearch.ts), giving the posteriors of the pooled model, of a
+ *      new segment ("*") and of every segment with data;
  *   4. per requested segment and "*": Thompson allocation, summary and retirement
  *      (allocateSegment.ts). Segments without a site of their own are served "*"'s allocation.
  * Pure: `now` and `seed` are inputs, the input state is not modified, and each segment draws from
@@ -14,9 +15,11 @@
 import type { Allocation } from "./allocation.ts";
 import { allocateSegment } from "./allocateSegment.ts";
 import type { Design } from "./design.ts";
-import { foldSegment, groupRows, type FoldRow } from "./fold.ts";
-import { forget, forgettingWeight } from "./forgetting.ts";
-import { computePosteriors, segmentPosterior } from "./hierarchy.ts";
+import { addCounts } from "./counts.ts";
+import { groupRows, type FoldRow } from "./fold.ts";
+import { forgettingWeight } from "./forgetting.ts";
+import type { Posteriors } from "./hierarchy.ts";
+import { refit, type RefitInput } from "./refit.ts";
 import type { RetiredEntry } from "./retirement.ts";
 import { createRng, hashString, mix32 } from "./rng.ts";
 import type { PageSettings } from "./settings.ts";
@@ -57,34 +60,39 @@ export interface FoldCycleOutput {
 }
 
 /**
- * Steps 1–2 alone: forgetting and the fold, without allocating (the benchmark's fold, and callers
- * that only need the updated state).
+ * Steps 1–3: forgetting, the fold and the refit, without allocating (the benchmark's fold, and
+ * callers that only need the updated state and posteriors).
  */
-export function foldState(input: Pick<FoldCycleInput, "design" | "settings" | "state" | "rows" | "now">): { state: ModelState; skipped: FoldCycleOutput["skipped"] } {
-  const { design, settings, now } = input;
-  checkStateMatches(input.state, design);
-  const w = forgettingWeight(input.state.lastFoldAt, now, settings.halfLifeDays);
-  const forgotten = forget(input.state, w);
-  const grouped = groupRows(design, input.rows, forgotten.sites, settings.maxSegments);
-  const sites = new Map(forgotten.sites);
-  if (grouped.bySegment.size > 0) {
-    // The posterior the new data update is the one served since the last cycle: same τ, no search.
-    const before = computePosteriors(design, settings, forgotten.sites, grouped.bySegment.keys(), { tau: input.state.segmentSpread, learn: false });
-    for (const [segment, rows] of grouped.bySegment) {
-      sites.set(segment, foldSegment(design, segmentPosterior(before, segment), forgotten.sites.get(segment), rows, segment));
-    }
+export function foldState(input: Pick<FoldCycleInput, "design" | "settings" | "state" | "rows" | "now">): { state: ModelState; posteriors: Posteriors; sweeps: number; skipped: FoldCycleOutput["skipped"] } {
+  const { design, settings, now, state } = input;
+  checkStateMatches(state, design);
+  const w = forgettingWeight(state.lastFoldAt, now, settings.halfLifeDays);
+  const grouped = groupRows(design, input.rows, state.segments, settings.maxSegments);
+  const inputs = new Map<string, RefitInput>();
+  const none = new Map<string, [number, number]>();
+  for (const [segment, data] of state.segments) {
+    const added = grouped.bySegment.get(segment);
+    inputs.set(segment, { counts: w === 1 && !added ? data.counts : addCounts(design, data.counts, w, added ?? none), mode: data.mode, folds: data.site.folds + (added ? 1 : 0) });
   }
-  const lastFoldAt = Math.max(now, input.state.lastFoldAt ?? now);
-  return { state: { ...forgotten, sites, lastFoldAt }, skipped: grouped.skipped };
+  for (const [segment, added] of grouped.bySegment) {
+    if (!state.segments.has(segment)) inputs.set(segment, { counts: addCounts(design, undefined, 1, added), mode: null, folds: 1 });
+  }
+  const fit = refit(design, settings, inputs, { tau: state.segmentSpread, learn: true });
+  const lastFoldAt = Math.max(now, state.lastFoldAt ?? now);
+  return {
+    state: { ...state, segments: fit.segments, lastFoldAt, segmentSpread: fit.posteriors.segmentSpread },
+    posteriors: fit.posteriors,
+    sweeps: fit.sweeps,
+    skipped: grouped.skipped,
+  };
 }
 
 export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   const { design, settings, now } = input;
   const folded = foldState(input);
-  const { sites } = folded.state;
+  const post = folded.posteriors;
   const requested = [...new Set(input.segments)].filter((s) => s !== POOLED && s !== OVERFLOW_SITE);
-  const own = requested.filter((s) => sites.has(s));
-  const post = computePosteriors(design, settings, sites, own, { tau: folded.state.segmentSpread, learn: true });
+  const own = requested.filter((s) => folded.state.segments.has(s));
 
   const activeBySegment = new Map<string, Map<string, RetiredEntry>>();
   for (const entry of input.retired) {
@@ -132,5 +140,5 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   });
   retired.push(...newlyRetired);
 
-  return { state: { ...folded.state, dominated, segmentSpread: post.segmentSpread }, allocations, summaries, retired, skipped: folded.skipped };
+  return { state: { ...folded.state, dominated }, allocations, summaries, retired, skipped: folded.skipped };
 }

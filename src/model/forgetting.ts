@@ -1,12 +1,11 @@
 /**
- * Exponential forgetting: before a fold every site's data information (Λ_s, η_s and the
- * effective counts) is multiplied by w = 2^(−Δt / half-life), so information older than a
- * half-life counts half. Scaling a Gaussian likelihood's natural parameters by w is the
- * power-prior / exponential-weighting scheme (Ibrahim & Chen, "Power prior distributions for
- * regression models", Statistical Science 15(1), 2000; Kulhavý & Zarrop, "On a general concept
- * of forgetting", Int. J. Control 58(4), 1993). Only data decays — the prior is not in the sites.
+ * Exponential forgetting: before a fold every segment's counts are multiplied by
+ * w = 2^(−Δt / half-life) (counts.ts), so data older than a half-life count half. Raising the
+ * likelihood to the power w is the power-prior / exponential-weighting scheme (Ibrahim & Chen,
+ * "Power prior distributions for regression models", Statistical Science 15(1), 2000; Kulhavý &
+ * Zarrop, "On a general concept of forgetting", Int. J. Control 58(4), 1993). Only data decay —
+ * the prior is not in the counts.
  */
-import type { ModelState } from "./state.ts";
 
 const DAY_MS = 86_400_000;
 
@@ -16,18 +15,3 @@ export function forgettingWeight(lastFoldAt: number | null, now: number, halfLif
   return Math.pow(2, -(now - lastFoldAt) / (halfLifeDays * DAY_MS));
 }
 
-/** A copy of the state with every site scaled by w. */
-export function forget(state: ModelState, w: number): ModelState {
-  if (w === 1) return state;
-  const sites = new Map();
-  for (const [segment, site] of state.sites) {
-    sites.set(segment, {
-      lambda: site.lambda.map((x) => x * w),
-      eta: site.eta.map((x) => x * w),
-      visitors: site.visitors * w,
-      conversions: site.conversions * w,
-      folds: site.folds,
-    });
-  }
-  return { ...state, sites };
-}

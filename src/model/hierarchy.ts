@@ -28,6 +28,7 @@
  * approximate Bayesian inference", MIT PhD thesis, ch. 3).
  */
 import type { Design } from "./design.ts";
+import type { NaturalPrior } from "./newton.ts";
 import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts";
 import { priorFor, type DiagonalPrior } from "./prior.ts";
 import type { PageSettings } from "./settings.ts";
@@ -48,6 +49,8 @@ export interface Posteriors {
   star: Gaussian;
   /** θ_s for every site. */
   segments: Map<string, Gaussian>;
+  /** θ_s's prior before its own data (the leave-one-out cavity Q_s, hQ_s), for every site. */
+  cavities: Map<string, NaturalPrior>;
   /** τ in use: segmentSpread as learned from the sites (spreadSearch.ts). */
   segmentSpread: number;
 }
@@ -183,6 +186,7 @@ export function computePosteriors(
   const star = gaussianFromNatural(starTerm.m, starTerm.v, d, "the new-segment posterior");
 
   const segments = new Map<string, Gaussian>();
+  const cavities = new Map<string, NaturalPrior>();
   for (const segment of only ?? sites.keys()) {
     const site = sites.get(segment);
     const term = terms.get(segment);
@@ -194,11 +198,12 @@ export function computePosteriors(
     for (let i = 0; i < d; i++) hLoo[i] = hBeta[i] - term.v[i];
     symmetrize(pLoo, d);
     const q = widen(pLoo, d, spread, hLoo, where);
+    cavities.set(segment, { precision: q.m.slice(), precisionMean: q.v.slice() });
     for (let i = 0; i < d * d; i++) q.m[i] += site.lambda[i];
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments, segmentSpread: spread.length > 1 ? spread[1] : setting };
+  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : setting };
 }
 
 /**

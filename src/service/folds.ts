@@ -16,7 +16,7 @@
  */
 import { EventEmitter } from "node:events";
 import type { Pool, PoolClient } from "pg";
-import { deserializeState, initialState, serializeState } from "../model/index.ts";
+import { serializeState } from "../model/index.ts";
 import type { Design, FoldCycleInput, FoldCycleOutput, ModelState, PageSettings, RetiredEntry } from "../model/index.ts";
 import { checkout, inTransaction, release, type Queryable } from "../store/repositories/sql.ts";
 import { loadPageById } from "../store/repositories/pages.ts";
@@ -28,6 +28,7 @@ import {
 import { designOf, servable, settingsOf } from "./definition.ts";
 import { asServiceError } from "./errors.ts";
 import { FoldThread } from "./foldThread.ts";
+import { loadState } from "./modelState.ts";
 
 /** Snapshots kept per page; serving, reporting and resuming need only the newest. */
 const SNAPSHOTS_KEPT = 20;
@@ -98,7 +99,7 @@ async function readInputs(q: Queryable, pageId: number, lock: boolean): Promise<
     due,
     inputs: {
       pageId, key: row.key, status: row.status, version: row.modelVersion, now, design, settings,
-      state: snapshot ? deserializeState(snapshot.state) : initialState(design, settings),
+      state: await loadState(q, pageId, snapshot, design, settings),
       segments: await segmentKeys(q, pageId, settings.maxSegments),
       retired: (await loadRetired(q, pageId)).map(retiredToEntry),
     },

@@ -6,7 +6,7 @@
  */
 import { EventEmitter } from "node:events";
 import type { Pool } from "pg";
-import { deserializeState, featureMapping, initialState, parseSettings, remapState, serializeState } from "../model/index.ts";
+import { featureMapping, parseSettings, remapState, serializeState } from "../model/index.ts";
 import type { Design } from "../model/index.ts";
 import { fail } from "../errors.ts";
 import { inTransaction } from "../store/repositories/sql.ts";
@@ -20,6 +20,7 @@ import { baselineKey, designOf, pageView, servable, settingsFrom, settingsOf, ty
 import { foldInTransaction, type FoldContext } from "./folds.ts";
 import { newPublicKey } from "./auth.ts";
 import { asServiceError } from "./errors.ts";
+import { loadState } from "./modelState.ts";
 
 export interface LevelInput { name: string; value?: string }
 export interface FactorInput { name: string; levels: LevelInput[] }
@@ -158,7 +159,7 @@ export class PageService extends EventEmitter {
           const row = (await foldPageRow(client, page.id, true))!;
           const snapshot = row.modelVersion > 0 ? await loadSnapshot(client, page.id, row.modelVersion) : null;
           const oldDesign = designOf(page);
-          const state = snapshot ? deserializeState(snapshot.state) : initialState(oldDesign, plan.settings);
+          const state = await loadState(client, page.id, snapshot, oldDesign, plan.settings);
           const remapped = remapState(state, oldDesign, plan.newDesign, plan.settings);
           await insertSnapshot(client, page.id, row.modelVersion + 1, serializeState(remapped), {}, await databaseNow(client));
           await setModelVersion(client, page.id, row.modelVersion + 1, null);

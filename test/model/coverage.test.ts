@@ -1,5 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { combinationKey, combinationRates, createRng, foldState, initialState, parseSettings, type FoldRow, type ModelState } from "../../src/model/index.ts";
+import { addCounts } from "../../src/model/counts.ts";
+import { segmentData } from "../../src/model/state.ts";
 import { page } from "./engineFixtures.ts";
 
 /**
@@ -37,8 +39,9 @@ function experiment(seed: number, double: boolean) {
   }
   if (double) {
     // The defect this test guards against: the big segment's information counted twice.
-    const site = state.sites.get("big")!;
-    state.sites.set("big", { ...site, lambda: site.lambda.map((x) => 2 * x), eta: site.eta.map((x) => 2 * x) });
+    const big = state.segments.get("big")!;
+    const segments = new Map(state.segments).set("big", segmentData(design, addCounts(design, big.counts, 2, new Map()), big.mode, big.site.folds));
+    state = foldState({ design, settings, state: { ...state, segments }, rows: [], now: 8 }).state;
   }
   const covered = { big: 0, small: 0 };
   for (const segment of ["big", "small"] as const) {

@@ -38,5 +38,13 @@ export function fullDataFit(design: Design, settings: PageSettings, rows: FoldRo
     writeActiveFeatures(design, key.split("|").map((p, f) => design.factors[f].levels.indexOf(p.split("=")[1])), block.idx, r * m);
     for (const row of rows) if (row.combination === key) { block.n[r] += row.n; block.k[r] += row.k; }
   });
-  return laplaceFit({ precision: prior.precision, mean: prior.mean }, design.dimension, block);
+  return laplaceFit(naturalPrior(prior.precision, prior.mean), design.dimension, block);
+}
+
+/** A Gaussian prior given by precision and mean, in the natural form laplaceFit takes (P, P·mean). */
+export function naturalPrior(precision: Float64Array, mean: Float64Array): { precision: Float64Array; precisionMean: Float64Array } {
+  const d = mean.length;
+  const precisionMean = new Float64Array(d);
+  for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) precisionMean[i] += precision[i * d + j] * mean[j];
+  return { precision, precisionMean };
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { combinationKey, foldCycle, initialState, parseSettings, propensityOf, type RetiredEntry } from "../../src/model/index.ts";
+import { combinationKey, foldCycle, initialState, parseSettings, sitesOf, propensityOf, type RetiredEntry } from "../../src/model/index.ts";
 import { computePosteriors } from "../../src/model/hierarchy.ts";
 import { page } from "./engineFixtures.ts";
 
@@ -33,7 +33,7 @@ describe("foldCycle", () => {
       { segment, combination: combinationKey(design, [2, 1]), n: 5000, k: i === 0 ? 300 : 100 },
     ]);
     const out = foldCycle({ design, settings, state: initialState(design, settings), rows, now: 0, retired: [], seed: 4, segments: ["a", "b"] });
-    const expected = computePosteriors(design, settings, out.state.sites).segmentSpread;
+    const expected = computePosteriors(design, settings, sitesOf(out.state)).segmentSpread;
     // Opposite winners in a and b: the spread must have left the setting for this to mean anything.
     expect(expected).toBeGreaterThan(settings.segmentSpread);
     for (const s of ["a", "b", "*"]) expect(out.summaries[s].segmentSpread).toBe(expected);
@@ -121,7 +121,7 @@ describe("foldCycle", () => {
       { segment: "small", combination: combinationKey(design, [1, 1]), n: 100, k: 6 },
     ];
     const out = foldCycle({ design, settings, state: initialState(design), rows, now: 0, segments: ["big", "small", "new"], retired: [], seed: 1 });
-    expect([...out.state.sites.keys()].sort()).toEqual(["*", "big"]);
+    expect([...out.state.segments.keys()].sort()).toEqual(["*", "big"]);
     expect(out.allocations.small.keys).toEqual(out.allocations["*"].keys);
     expect(out.allocations.small.propensities).toEqual(out.allocations["*"].propensities);
     expect(out.summaries.new.segment).toBe("new");

@@ -1,6 +1,6 @@
 import { inverse, Matrix, solve } from "ml-matrix";
 import { describe, expect, it } from "vitest";
-import { combinationKey, createRng, foldState, initialState, parseSettings } from "../../src/model/index.ts";
+import { combinationKey, createRng, foldState, initialState, parseSettings, sitesOf } from "../../src/model/index.ts";
 import { computePosteriors, logEvidence, widen } from "../../src/model/hierarchy.ts";
 import { page } from "./engineFixtures.ts";
 
@@ -51,8 +51,8 @@ describe("pooled and segment posteriors", () => {
       return { segment, combination: key(c), n: 4000, k };
     }));
     const state = foldState({ design, settings, state: initialState(design), rows, now: 0 }).state;
-    const post = computePosteriors(design, settings, state.sites);
-    const onlyA = computePosteriors(design, settings, new Map([["a", state.sites.get("a")!]]));
+    const post = computePosteriors(design, settings, sitesOf(state));
+    const onlyA = computePosteriors(design, settings, new Map([["a", sitesOf(state).get("a")!]]));
     // Segment b's data move a's posterior (borrowing strength) but a's own data dominate it.
     const j = design.featureNames.indexOf("f0=l1");
     const truthEffect = Math.log((0.06 / 0.94) / (0.04 / 0.96));
@@ -109,7 +109,7 @@ describe("the learned segment spread", () => {
         return { segment, combination: combinationKey(design, c), n: 20_000, k };
       }),
     );
-    return foldState({ design, settings, state: initialState(design), rows, now: 0 }).state.sites;
+    return sitesOf(foldState({ design, settings, state: initialState(design), rows, now: 0 }).state);
   };
   const rate = (logit: number) => 1 / (1 + Math.exp(-logit));
 

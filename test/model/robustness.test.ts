@@ -12,7 +12,7 @@ function allFinite(out: FoldCycleOutput): boolean {
   const numbers: number[] = [];
   JSON.stringify(out.summaries, (_, v) => (typeof v === "number" && numbers.push(v), v));
   JSON.stringify(out.allocations, (_, v) => (typeof v === "number" && numbers.push(v), v));
-  for (const site of out.state.sites.values()) numbers.push(...site.lambda, ...site.eta);
+  for (const data of out.state.segments.values()) numbers.push(...data.site.lambda, ...data.site.eta, ...data.mode);
   return numbers.every(Number.isFinite);
 }
 
@@ -24,7 +24,7 @@ describe("numerical robustness", () => {
   it("handles an empty fold", () => {
     const out = fold([]);
     expect(allFinite(out)).toBe(true);
-    expect(out.state.sites.size).toBe(0);
+    expect(out.state.segments.size).toBe(0);
   });
 
   it("handles 10⁶ visitors of one combination with no conversions", () => {
