@@ -15,7 +15,7 @@ import { groupRows, type FoldRow } from "./fold.ts";
 import { forgettingWeight } from "./forgetting.ts";
 import { refit, type RefitInput } from "./refit.ts";
 import type { PageSettings } from "./settings.ts";
-import { checkStateMatches, type ModelState, stateHeader } from "./state.ts";
+import { checkStateMatches, type ModelState, OVERFLOW_SITE, stateHeader } from "./state.ts";
 
 /** The rows one past fold consumed, at the time it ran (ms). */
 export interface PastFold {
@@ -29,6 +29,8 @@ export function upgradeState(legacy: unknown, design: Design, settings: PageSett
   const sites = (legacy as { sites?: unknown }).sites;
   const tracked = new Map<string, true>();
   if (Array.isArray(sites)) for (const site of sites) if (typeof site?.segment === "string") tracked.set(site.segment, true);
+  // Every segment the old state learned from has a site of its own or went to the overflow site.
+  const admitted = [...tracked.keys()].filter((segment) => segment !== OVERFLOW_SITE).length;
   const inputs = new Map<string, RefitInput>();
   let last: number | null = null;
   for (const fold of [...folds].sort((a, b) => a.at - b.at)) {
@@ -39,7 +41,7 @@ export function upgradeState(legacy: unknown, design: Design, settings: PageSett
       const combination = rekey(design, row.combination);
       if (combination !== null) rows.push({ ...row, combination });
     }
-    const grouped = groupRows(design, rows, tracked, Number.POSITIVE_INFINITY).bySegment;
+    const grouped = groupRows(design, rows, tracked, admitted).bySegment;
     for (const [segment, input] of inputs) {
       const added = grouped.get(segment);
       inputs.set(segment, { counts: addCounts(design, input.counts, w, added ?? new Map()), mode: null, folds: input.folds + (added ? 1 : 0) });

@@ -252,9 +252,10 @@ function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolea
     const added = newDesign.featureNames.filter((_, j) => !reached.has(j));
     return {
       action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0,
-      message: `The model was remapped to the new design: ${kept.length} learned coefficients kept` +
-        (dropped.length ? `, ${dropped.length} dropped — what their data said about the kept ones stays (${dropped.join(", ")})` : "") +
-        (added.length ? `, ${added.length} new ones start from the prior (${added.join(", ")})` : "") + ".",
+      // The model refits from its visitor counts (re-keyed by the engine's remapState).
+      message: `The model was refitted on the new design from the visitors seen so far: ${kept.length} coefficients carry over` +
+        (dropped.length ? `, ${dropped.length} are re-estimated or gone (${dropped.join(", ")}); visitors who saw a removed level no longer count` : "") +
+        (added.length ? `, ${added.length} new ones start from the prior (${added.join(", ")}); visitors from before a new factor count as its first level` : "") + ".",
     };
   }
   const parts: string[] = [];

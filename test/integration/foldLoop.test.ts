@@ -11,7 +11,7 @@ import { forEachDatabase } from "../support/databases.ts";
 import { startHarness, testPage, type Harness } from "./harness.ts";
 import { FoldLoop, foldSeed } from "../../src/service/folds.ts";
 import { foldLogs, foldedRows, loadSnapshot } from "../../src/store/repositories/folds.ts";
-import { deserializeState, foldCycle, initialState, parseSettings } from "../../src/model/index.ts";
+import { deserializeState, foldCycle, initialState, parseSettings, sitesOf } from "../../src/model/index.ts";
 import { designOf } from "../../src/service/definition.ts";
 import { loadPage } from "../../src/store/repositories/pages.ts";
 import type { Database } from "../../src/store/database.ts";
@@ -106,7 +106,7 @@ forEachDatabase("fold loop", (open, target) => {
       expect(again).toMatchObject({ folded: true, picks: 0 });
       expect((await foldedRows(h.db.pool, page.id)).reduce((sum, r) => sum + r.k, 0)).toBe(2);
       const snapshot = (await loadSnapshot(h.db.pool, page.id, again.folded ? again.version : 0))!;
-      const sites = [...deserializeState(snapshot.state).sites.values()];
+      const sites = [...sitesOf(deserializeState(snapshot.state, designOf((await loadPage(h.db.pool, page.key))!))).values()];
       expect({ visitors: sites.reduce((t, x) => t + x.visitors, 0), conversions: sites.reduce((t, x) => t + x.conversions, 0) }).toEqual({ visitors: 3, conversions: 2 });
     });
 
@@ -123,7 +123,7 @@ forEachDatabase("fold loop", (open, target) => {
       expect(report.segments.map((s: { segment: string }) => s.segment)).toEqual(["source=search"]);
       expect(report.pooled).toMatchObject({ visitors: 2, conversions: 1, folded: 2 });
       const snapshot = (await loadSnapshot(h.db.pool, page.id, fold.folded ? fold.version : 0))!;
-      const overflow = deserializeState(snapshot.state).sites.get("*")!;
+      const overflow = sitesOf(deserializeState(snapshot.state, designOf((await loadPage(h.db.pool, page.key))!))).get("*")!;
       expect({ visitors: overflow.visitors, conversions: overflow.conversions }).toEqual({ visitors: 1, conversions: 1 });
     });
 
@@ -282,9 +282,9 @@ forEachDatabase("fold loop", (open, target) => {
 
       const stored = (await loadPage(db.pool, page.key))!;
       const snapshot = (await loadSnapshot(db.pool, page.id, stored.modelVersion))!;
-      const state = deserializeState(snapshot.state);
-      const siteVisitors = [...state.sites.values()].reduce((s, site) => s + site.visitors, 0);
-      const siteConversions = [...state.sites.values()].reduce((s, site) => s + site.conversions, 0);
+      const state = deserializeState(snapshot.state, designOf(stored));
+      const siteVisitors = [...sitesOf(state).values()].reduce((s, site) => s + site.visitors, 0);
+      const siteConversions = [...sitesOf(state).values()].reduce((s, site) => s + site.conversions, 0);
       expect(siteVisitors).toBe(90);
       expect(siteConversions).toBe(pickTotal.k);
 
@@ -299,13 +299,13 @@ forEachDatabase("fold loop", (open, target) => {
         replay = out.state;
         retired = out.retired;
       }
-      expect([...replay.sites.keys()].sort()).toEqual([...state.sites.keys()].sort());
-      for (const [segment, site] of state.sites) {
-        const other = replay.sites.get(segment)!;
-        expect(other.visitors).toBe(site.visitors);
-        expect(other.conversions).toBe(site.conversions);
-        site.eta.forEach((v, i) => expect(other.eta[i]).toBeCloseTo(v, 9));
-        site.lambda.forEach((v, i) => expect(other.lambda[i]).toBeCloseTo(v, 9));
+      expect([...replay.segments.keys()].sort()).toEqual([...state.segments.keys()].sort());
+      for (const [segment, data] of state.segments) {
+        const other = replay.segments.get(segment)!;
+        expect(other.counts.keys).toEqual(data.counts.keys);
+        data.counts.n.forEach((v, i) => expect(other.counts.n[i]).toBeCloseTo(v, 9));
+        data.counts.k.forEach((v, i) => expect(other.counts.k[i]).toBeCloseTo(v, 9));
+        data.mode.forEach((v, i) => expect(other.mode[i]).toBeCloseTo(v, 9));
       }
       await db.close();
     } finally {

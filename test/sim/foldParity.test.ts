@@ -53,9 +53,9 @@ describe("facetwise policy vs the server's fold", () => {
     if (!folded.folded) return;
     expect(folded.picks).toBe(160);
     const snapshot = await loadSnapshot(db.pool, rows[0]!.id, folded.version);
-    const server = serializeState(deserializeState(snapshot!.state));
-
     const design = buildDesign({ factors, exclude });
+    const server = serializeState(deserializeState(snapshot!.state, design));
+
     const keys = allowedCombinations(design).map((c) => combinationKey(design, c));
     const segmentNames = [...new Set(records.map((r) => r.segment))];
     const policy = facetwisePolicy({ design, settings: parseSettings(settings), segmentNames, keys, msPerVisitor: 1, rng: createRng(1) });
@@ -63,15 +63,14 @@ describe("facetwise policy vs the server's fold", () => {
     policy.fold(160);
     const sim = serializeState(policy.state());
 
-    const bySegment = (s: typeof sim) => [...s.sites].sort((a, b) => a.segment.localeCompare(b.segment));
+    const bySegment = (s: typeof sim) => [...s.segments].sort((a, b) => a.segment.localeCompare(b.segment));
     expect(bySegment(sim).map((s) => s.segment)).toEqual(bySegment(server).map((s) => s.segment));
-    bySegment(sim).forEach((site, i) => {
+    bySegment(sim).forEach((segment, i) => {
       const other = bySegment(server)[i]!;
-      expect(site.visitors).toBe(other.visitors);
-      expect(site.conversions).toBe(other.conversions);
-      site.eta.forEach((x, j) => expect(x).toBeCloseTo(other.eta[j]!, 9));
-      site.lambdaUpper.forEach((x, j) => expect(x).toBeCloseTo(other.lambdaUpper[j]!, 9));
+      const counts = (x: typeof segment) => Object.fromEntries(x.combinations.map((key, r) => [key, [x.n[r], x.k[r]]]));
+      expect(counts(segment)).toEqual(counts(other));
+      segment.mode.forEach((x, j) => expect(x).toBeCloseTo(other.mode[j]!, 9));
     });
-    expect(sim.sites.reduce((a, s) => a + s.conversions, 0)).toBe(records.filter((r) => r.converted).length);
+    expect(sim.segments.reduce((a, s) => a + s.k.reduce((t, k) => t + k, 0), 0)).toBe(records.filter((r) => r.converted).length);
   }, 120_000);
 });
