@@ -77,10 +77,10 @@ export function foldState(input: Pick<FoldCycleInput, "design" | "settings" | "s
   for (const [segment, added] of grouped.bySegment) {
     if (!state.segments.has(segment)) inputs.set(segment, { counts: addCounts(design, undefined, 1, added), mode: null, folds: 1 });
   }
-  const fit = refit(design, settings, inputs, { tau: state.segmentSpread, learn: true });
+  const fit = refit(design, settings, inputs, { tau: state.segmentSpread, scales: state.priorScales, learn: true });
   const lastFoldAt = Math.max(now, state.lastFoldAt ?? now);
   return {
-    state: { ...state, segments: fit.segments, lastFoldAt, segmentSpread: fit.posteriors.segmentSpread },
+    state: { ...state, segments: fit.segments, lastFoldAt, segmentSpread: fit.posteriors.segmentSpread, priorScales: fit.posteriors.priorScales },
     posteriors: fit.posteriors,
     sweeps: fit.sweeps,
     skipped: grouped.skipped,

@@ -30,7 +30,8 @@
 import type { Design } from "./design.ts";
 import type { NaturalPrior } from "./newton.ts";
 import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts";
-import { priorFor, type DiagonalPrior } from "./prior.ts";
+import { type DiagonalPrior, priorFor } from "./prior.ts";
+import { type PriorScales, searchPriorScales, UNIT_SCALES } from "./priorScaleSearch.ts";
 import type { PageSettings } from "./settings.ts";
 import { nearestStep, searchSpread, spreadFactor } from "./spreadSearch.ts";
 import type { Site } from "./state.ts";
@@ -53,6 +54,8 @@ export interface Posteriors {
   cavities: Map<string, NaturalPrior>;
   /** τ in use: segmentSpread as learned from the sites (spreadSearch.ts). */
   segmentSpread: number;
+  /** The prior scales' multiples in use (priorScaleSearch.ts). */
+  priorScales: PriorScales;
 }
 
 /**
@@ -119,43 +122,73 @@ interface Pooled {
   pBeta: Float64Array;
   hBeta: Float64Array;
   pooled: Gaussian;
-  /** log Z(T) up to terms free of T (see the header). */
+  scales: PriorScales;
+  /** log Z(T, scales) up to terms free of both (see the header and priorScaleSearch.ts). */
   logEvidence: number;
 }
 
-/** Every site seen through T = diag(spread²), summed with the prior into β's posterior. */
-function poolSites(d: number, prior: DiagonalPrior, sites: Map<string, Site>, spread: Float64Array): Pooled {
-  const pBeta = new Float64Array(d * d);
-  const hBeta = Float64Array.from(prior.precisionMean);
-  for (let i = 0; i < d; i++) pBeta[i * d + i] = prior.precision[i];
+interface SummedSites {
+  spread: Float64Array;
+  terms: Map<string, Widened>;
+  /** Σ_s of the widened sites' natural parameters, and their share of the log evidence. */
+  sum: Float64Array;
+  sumH: Float64Array;
+  logEvidence: number;
+}
+
+/** Every site seen through T = diag(spread²), summed. */
+function sumSites(d: number, sites: Map<string, Site>, spread: Float64Array): SummedSites {
+  const sum = new Float64Array(d * d);
+  const sumH = new Float64Array(d);
   const terms = new Map<string, Widened>();
   let logEvidence = 0;
   for (const [segment, site] of sites) {
     const term = widen(site.lambda, d, spread, site.eta, `the pooled posterior (segment "${segment}")`);
     terms.set(segment, term);
     logEvidence += term.logEvidence;
-    for (let i = 0; i < d * d; i++) pBeta[i] += term.m[i];
-    for (let i = 0; i < d; i++) hBeta[i] += term.v[i];
+    for (let i = 0; i < d * d; i++) sum[i] += term.m[i];
+    for (let i = 0; i < d; i++) sumH[i] += term.v[i];
+  }
+  return { spread, terms, sum, sumH, logEvidence };
+}
+
+/** The summed sites times β's prior: β's posterior and the log evidence (header; priorScaleSearch.ts). */
+function withPrior(d: number, summed: SummedSites, prior: DiagonalPrior): Omit<Pooled, "scales"> {
+  const pBeta = summed.sum.slice();
+  const hBeta = summed.sumH.slice();
+  let logEvidence = summed.logEvidence;
+  for (let i = 0; i < d; i++) {
+    pBeta[i * d + i] += prior.precision[i];
+    hBeta[i] += prior.precisionMean[i];
+    // ½ log|P0| − ½ μ0ᵀP0μ0 (diagonal P0, μ0 = h0 / p0)
+    logEvidence += 0.5 * Math.log(prior.precision[i]) - 0.5 * (prior.precisionMean[i] * prior.precisionMean[i]) / prior.precision[i];
   }
   const pooled = gaussianFromNatural(pBeta.slice(), hBeta.slice(), d, "the pooled posterior");
   for (let i = 0; i < d; i++) logEvidence += 0.5 * hBeta[i] * pooled.mean[i] - Math.log(pooled.chol[i * d + i]);
-  return { spread, terms, pBeta, hBeta, pooled, logEvidence };
+  return { spread: summed.spread, terms: summed.terms, pBeta, hBeta, pooled, logEvidence };
 }
 
-/**
- * The log evidence log Z(T) of the sites (up to terms free of T), for tests and diagnostics;
- * `prior` is β's prior.
- */
+/** β's posterior with the prior scales as given, or learned (priorScaleSearch.ts) when `scales` is null. */
+function poolSites(design: Design, settings: PageSettings, sites: Map<string, Site>, spread: Float64Array, scales: PriorScales | null): Pooled {
+  const d = design.dimension;
+  const summed = sumSites(d, sites, spread);
+  const at = (chosen: PriorScales): Pooled => ({ ...withPrior(d, summed, priorFor(design, settings, chosen)), scales: chosen });
+  return scales !== null ? at(scales) : searchPriorScales(at, design.pairBase.length > 0).value;
+}
+
+/** The log evidence log Z(T) of the sites (up to terms free of T) under β's prior `prior`, for tests and diagnostics. */
 export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, Site>, spread: Float64Array): number {
-  return poolSites(d, prior, sites, spread).logEvidence;
+  return withPrior(d, sumSites(d, sites, spread), prior).logEvidence;
 }
 
 /**
- * Which τ to use: `tau` as it is (`learn` false), or learned by a search that starts at the grid
- * step nearest `tau` (`learn` true). A null `tau` means the segmentSpread setting.
+ * Which hyperparameters to use: τ and the prior scales as given (`learn` false; null means the
+ * settings), or learned (`learn` true): τ by a search that starts at the grid step nearest `tau`,
+ * the prior scales over their whole grid at each τ.
  */
 export interface SpreadChoice {
   tau: number | null;
+  scales?: PriorScales | null;
   learn: boolean;
 }
 
@@ -171,13 +204,13 @@ export function computePosteriors(
   choice: SpreadChoice = { tau: null, learn: true },
 ): Posteriors {
   const d = design.dimension;
-  const prior = priorFor(design, settings);
-  const at = (tau: number): Pooled => poolSites(d, prior, sites, segmentSpreads(design, settings, tau));
+  const scales = choice.learn ? null : (choice.scales ?? UNIT_SCALES);
+  const at = (tau: number): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), scales);
   // τ is not identified from fewer than two segments with data: keep the setting.
   let withData = 0;
   for (const site of sites.values()) if (site.visitors > 0) withData++;
   const setting = settings.segmentSpread;
-  const { spread, terms, pBeta, hBeta, pooled } = !choice.learn
+  const { spread, terms, pBeta, hBeta, pooled, scales: priorScales } = !choice.learn
     ? at(choice.tau ?? setting)
     : withData < 2
       ? at(setting)
@@ -203,7 +236,7 @@ export function computePosteriors(
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : setting };
+  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : setting, priorScales };
 }
 
 /**

@@ -8,9 +8,9 @@
  * mode, newton.ts `likelihoodSite`) in turn informs the other segments' cavities. Iterating
  * "cavities → modes → sites" to a fixed point is Laplace propagation (Smola, Vishwanathan &
  * Eskin, "Laplace Propagation", NIPS 2003), expectation propagation's Laplace variant (Minka 2001,
- * ch. 3). Each sweep updates all segments from the same cavities; τ is learned at each sweep's
- * pooling (spreadSearch.ts). A sweep ends the loop when every segment's posterior mean lies within
- * 0.01 posterior sd (Mahalanobis) of the mode its site was taken at, and τ did not move.
+ * ch. 3). Each sweep updates all segments from the same cavities; τ and the prior scales are
+ * learned at each sweep's pooling (spreadSearch.ts, priorScaleSearch.ts). A sweep ends the loop when every segment's posterior mean lies within
+ * 0.01 posterior sd (Mahalanobis) of the mode its site was taken at, and τ and the scales did not move.
  *
  * Because every fold refits from the counts, warm-started from the last modes, the result depends
  * only on the counts — not on how the data were split into folds — and approximation errors do
@@ -64,10 +64,11 @@ export function refit(design: Design, settings: PageSettings, inputs: Map<string
       modes.set(segment, fit.mode);
       sites.set(segment, siteAt(d, input, block, fit.mode));
     }
-    const tau = posteriors.segmentSpread;
-    choice = { tau, learn: spread.learn };
+    const { segmentSpread: tau, priorScales } = posteriors;
+    choice = { tau, scales: priorScales, learn: spread.learn };
     posteriors = computePosteriors(design, settings, sites, undefined, choice);
-    if (posteriors.segmentSpread === tau && converged(d, posteriors, modes)) break;
+    const same = posteriors.segmentSpread === tau && posteriors.priorScales.main === priorScales.main && posteriors.priorScales.interaction === priorScales.interaction;
+    if (same && converged(d, posteriors, modes)) break;
   }
   const segments = new Map<string, SegmentData>();
   for (const [segment, input] of inputs) segments.set(segment, { counts: input.counts, mode: modes.get(segment)!, site: sites.get(segment)! });

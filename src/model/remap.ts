@@ -68,5 +68,5 @@ export function remapState(state: ModelState, oldDesign: Design, newDesign: Desi
     });
     segments.set(segment, segmentData(newDesign, addCounts(newDesign, undefined, 1, added), mode, data.site.folds));
   }
-  return { version: 2, featureNames: newDesign.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: new Map(), segmentSpread: state.segmentSpread };
+  return { version: 2, featureNames: newDesign.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: new Map(), segmentSpread: state.segmentSpread, priorScales: state.priorScales };
 }

@@ -6,7 +6,8 @@
  *   - its site (Λ_s, η_s): the likelihood's Gaussian approximation at θ̂_s (newton.ts
  *     `likelihoodSite`), a pure function of counts and mode, through which the hierarchy
  *     (hierarchy.ts) sees the segment's data. Sites are derived, never stored.
- * Plus the consecutive-fold counters the retirement rule needs and the learned segment spread.
+ * Plus the consecutive-fold counters the retirement rule needs, the learned segment spread and
+ * prior scales.
  * Only data lives here: the prior is recomputed from the settings, so a changed prior setting takes
  * effect at the next fold and forgetting never erodes the prior.
  *
@@ -19,6 +20,7 @@ import { fail } from "../errors.ts";
 import { addCounts, featuresOf, rowBlock, type SegmentCounts } from "./counts.ts";
 import type { Design } from "./design.ts";
 import { likelihoodSite } from "./newton.ts";
+import type { PriorScales } from "./priorScaleSearch.ts";
 import type { PageSettings } from "./settings.ts";
 
 /** Segment key of the shared site of segments beyond maxSegments (served by the pooled model). */
@@ -55,6 +57,8 @@ export interface ModelState {
    * it, and the next search starts from it. null before the first cycle.
    */
   segmentSpread: number | null;
+  /** The prior scales' multiples the last fold cycle learned (priorScaleSearch.ts); null before the first. */
+  priorScales: PriorScales | null;
 }
 
 /** A segment's data with its site computed at `mode`. */
@@ -71,7 +75,7 @@ export function sitesOf(state: ModelState): Map<string, Site> {
 }
 
 export function initialState(design: Design, _settings?: PageSettings): ModelState {
-  return { version: 2, featureNames: design.featureNames.slice(), lastFoldAt: null, segments: new Map(), dominated: new Map(), segmentSpread: null };
+  return { version: 2, featureNames: design.featureNames.slice(), lastFoldAt: null, segments: new Map(), dominated: new Map(), segmentSpread: null, priorScales: null };
 }
 
 interface SerializedSegment {
@@ -89,6 +93,7 @@ interface SerializedState {
   segments: SerializedSegment[];
   dominated: Record<string, Record<string, number>>;
   segmentSpread: number | null;
+  priorScales?: PriorScales | null;
 }
 
 export function serializeState(state: ModelState): SerializedState {
@@ -97,7 +102,7 @@ export function serializeState(state: ModelState): SerializedState {
     const { counts } = data;
     segments.push({ segment, combinations: counts.keys.slice(), n: Array.from(counts.n), k: Array.from(counts.k), mode: Array.from(data.mode), folds: data.site.folds });
   }
-  return { version: 2, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: serializeDominated(state.dominated), segmentSpread: state.segmentSpread };
+  return { version: 2, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: serializeDominated(state.dominated), segmentSpread: state.segmentSpread, priorScales: state.priorScales };
 }
 
 function serializeDominated(dominated: ModelState["dominated"]): Record<string, Record<string, number>> {
@@ -114,7 +119,7 @@ export function isLegacyState(json: unknown): boolean {
 }
 
 /** The fields every format version shares, checked. */
-export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "lastFoldAt" | "dominated" | "segmentSpread"> {
+export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "lastFoldAt" | "dominated" | "segmentSpread" | "priorScales"> {
   const s = json as Partial<SerializedState>;
   if (s === null || typeof s !== "object") throw bad("not an object");
   if (!Array.isArray(s.featureNames) || !s.featureNames.every((x) => typeof x === "string")) throw bad("featureNames missing");
@@ -130,7 +135,13 @@ export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "l
   if (segmentSpread !== null && !(typeof segmentSpread === "number" && Number.isFinite(segmentSpread) && segmentSpread >= 0)) {
     throw bad("segmentSpread must be a non-negative number or null");
   }
-  return { featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt ?? null, dominated, segmentSpread };
+  const scales = s.priorScales ?? null;
+  const multiple = (x: unknown) => typeof x === "number" && Number.isFinite(x) && x > 0;
+  if (scales !== null && !(typeof scales === "object" && multiple(scales.main) && multiple(scales.interaction))) {
+    throw bad("priorScales must hold positive multiples main and interaction, or be null");
+  }
+  const priorScales = scales === null ? null : { main: scales.main, interaction: scales.interaction };
+  return { featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt ?? null, dominated, segmentSpread, priorScales };
 }
 
 /** Reads a version-2 snapshot for `design` (the design it was written for). */

@@ -56,5 +56,5 @@ export function upgradeState(legacy: unknown, design: Design, settings: PageSett
     for (const [segment, input] of inputs) inputs.set(segment, { ...input, counts: addCounts(design, input.counts, w, new Map()) });
   }
   const fit = refit(design, settings, inputs, { tau: header.segmentSpread, learn: true });
-  return { version: 2, ...header, segments: fit.segments, segmentSpread: fit.posteriors.segmentSpread };
+  return { version: 2, ...header, segments: fit.segments, segmentSpread: fit.posteriors.segmentSpread, priorScales: fit.posteriors.priorScales };
 }

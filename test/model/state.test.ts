@@ -91,8 +91,9 @@ describe("remapState", () => {
     computePosteriors(design, settings, sitesOf(foldState({ design, settings, state, rows: [], now: 0 }).state)).segments.get("s")!;
   const expectSameFit = (design: Design, a: ReturnType<typeof refitted>, b: ReturnType<typeof refitted>) => {
     const d = design.dimension;
-    for (let i = 0; i < d; i++) expect(a.mean[i]).toBeCloseTo(b.mean[i], 6);
-    for (let i = 0; i < d * d; i++) expect(a.precision[i]).toBeCloseTo(b.precision[i], 4);
+    for (let i = 0; i < d; i++) expect(Math.abs(a.mean[i] - b.mean[i])).toBeLessThan(1e-4);
+    // precisions reach ~10³ here: compare relative to size (refit tolerance 0.01 sd)
+    for (let i = 0; i < d * d; i++) expect(Math.abs(a.precision[i] - b.precision[i])).toBeLessThan(1e-5 * (1 + Math.abs(b.precision[i])));
   };
   const rekeyRows = (design: Design, rows: FoldRow[]) => rows.flatMap((r) => {
     const combination = rekey(design, r.combination);
