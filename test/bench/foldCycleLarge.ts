@@ -4,7 +4,7 @@
  * maxSegments = 200 segments, each with 3,000 visitors folded before and 500 new ones per cycle.
  * Prints figures; asserts nothing.
  *
- *   npx tsx test/bench/foldCycleLarge.ts [--cycles 3]
+ *   npm run bench:fold [-- --cycles 3]
  */
 import { parseArgs } from "node:util";
 import { buildDesign, combinationKey, createRng, foldCycle, initialState, parseSettings, type FoldRow } from "../../src/model/index.ts";
