@@ -36,6 +36,7 @@ export const catalogue = {
   NOT_FOUND: { status: 404, message: "No route {method} {path}; see the API list in the README" },
   NOT_DEMO_PAGE: { status: 409, message: 'Page "{page}" is not the demo page; demo traffic only runs on the seeded demo' },
   DATABASE_UNAVAILABLE: { status: 503, message: "The database is unavailable ({reason}); retry shortly" },
+  DATABASE_BUSY: { status: 503, message: "The database could not finish this write because of concurrent writes ({reason}); nothing was stored, retry shortly" },
   INTERNAL: { status: 500, message: "Internal error ({reference}); the server log has the details" },
   MIGRATION_CHANGED: { status: 500, message: 'Migration "{migration}" was edited after it was applied (checksum {applied} in the database, {current} on disk); restore the file and put the change in a new migration' },
   MIGRATION_UNKNOWN: { status: 500, message: 'The database has migration "{migration}" applied, which this version of facetwise does not have; run the newer version or use another database' },

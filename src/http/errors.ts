@@ -1,7 +1,7 @@
 /**
  * Error mapping: every failure leaves as `{error: {code, message, field?}}` with the catalogue
  * status. Body-parser failures become MALFORMED_JSON / BODY_TOO_LARGE; an unavailable database is
- * 503 with Retry-After; anything unexpected is logged here and answered 500 with a reference —
+ * 503 with Retry-After (so is a database too busy with concurrent writes); anything unexpected is logged here and answered 500 with a reference —
  * no stack trace ever leaves the server.
  */
 import type { NextFunction, Request, Response } from "express";
@@ -24,7 +24,7 @@ export function errorHandler(bodyLimit: string) {
   return (error: unknown, req: Request, res: Response, _next: NextFunction): void => {
     const mapped = toHttpError(error, bodyLimit);
     if (mapped.code === "INTERNAL") console.error(`facetwise: ${req.method} ${req.path} failed: ${mapped.message}`);
-    if (mapped.code === "DATABASE_UNAVAILABLE") res.set("Retry-After", String(RETRY_AFTER_SECONDS));
+    if (mapped.status === 503) res.set("Retry-After", String(RETRY_AFTER_SECONDS));
     if (res.headersSent) {
       res.end();
       return;
