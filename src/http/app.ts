@@ -11,6 +11,7 @@ import { fail } from "../errors.ts";
 import type { Services } from "../service/index.ts";
 import { requireAdmin, publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
+import { requireDecodablePath, requireUsableText } from "./inputText.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -38,6 +39,7 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const app = express();
   app.disable("x-powered-by");
   app.set("etag", false);
+  app.use(requireDecodablePath);
 
   app.get("/healthz", (_req, res) => {
     res.json({ ok: true });
@@ -52,6 +54,7 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const publicApi = express.Router();
   publicApi.use(publicCors);
   publicApi.use(express.json({ limit: publicLimit, type: ["application/json", "text/plain"], strict: true }));
+  publicApi.use(requireUsableText);
   publicApi.post("/pages/:key/picks", async (req, res) => {
     const key = pageKey(req);
     const body = parse(pickSchema, req.body);
@@ -76,6 +79,7 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const admin = express.Router();
   admin.use(requireAdmin(services.auth));
   admin.use(express.json({ limit: adminLimit, strict: true }));
+  admin.use(requireUsableText);
   admin.get("/session", (_req, res) => {
     res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey, defaultSettings: services.defaultSettings });
   });

@@ -20,7 +20,15 @@ export function asServiceError(error: unknown): FacetwiseError {
   }
   if (isRetryable(error)) return fail("DATABASE_BUSY", { reason: (error as Error).message || "contention" });
   const internal = fail("INTERNAL", { reference: randomBytes(4).toString("hex") });
-  // the original stays in the server log under the reference the client sees
-  console.error(`facetwise: ${internal.message}:`, error);
+  // the original stays in the server log under the reference the client sees, on one line
+  console.error(`facetwise: ${internal.message}: ${oneLine(error)}`);
   return internal;
+}
+
+/** An error in one log line: its class, code, first message line and the first frame of its stack. */
+export function oneLine(error: unknown): string {
+  const e = error as { name?: string; code?: unknown; message?: string; stack?: string };
+  const frame = e?.stack?.split("\n").find((line) => /^\s+at /.test(line))?.trim() ?? "";
+  const code = typeof e?.code === "string" ? ` [${e.code}]` : "";
+  return `${e?.name ?? "Error"}${code}: ${String(e?.message ?? error).split("\n")[0].slice(0, 300)}${frame ? ` (${frame})` : ""}`;
 }
