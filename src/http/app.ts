@@ -9,6 +9,7 @@ import { existsSync } from "node:fs";
 import { join } from "node:path";
 import { fail } from "../errors.ts";
 import type { Services } from "../service/index.ts";
+import { entityTag } from "../service/pageVersion.ts";
 import { requireAdmin, publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
 import { requireDecodablePath, requireUsableText } from "./inputText.ts";
@@ -93,12 +94,15 @@ export function createApp(services: Services, options: AppOptions = {}): express
   admin.get("/pages", async (_req, res) => {
     res.json({ pages: await services.pages.list() });
   });
+  // optimistic concurrency: GET and PATCH answer an ETag; a PATCH with If-Match applies only to that version
   admin.get("/pages/:key", async (req, res) => {
-    res.json(await services.pages.get(pageKey(req)));
+    const { page, version } = await services.pages.read(pageKey(req));
+    res.set("ETag", entityTag(version)).json(page);
   });
   admin.patch("/pages/:key", async (req, res) => {
     const key = pageKey(req);
-    res.json(await services.pages.patch(key, parse(patchPageSchema, req.body)));
+    const { version, ...result } = await services.pages.patch(key, parse(patchPageSchema, req.body), req.get("if-match"));
+    res.set("ETag", entityTag(version)).json(result);
   });
   admin.get("/pages/:key/report", async (req, res) => {
     res.json(await services.reports.report(pageKey(req)));
