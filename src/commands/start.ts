@@ -7,6 +7,7 @@ import { parseArgs } from "node:util";
 import { fail } from "../errors.ts";
 import { DEFAULT_DATA_DIR, openDatabase, redact } from "../store/database.ts";
 import { startServer } from "../http/server.ts";
+import { checkAdminToken } from "../service/auth.ts";
 
 export const summary = "run the server (API, fold loop, admin console); embedded database unless DATABASE_URL is set";
 
@@ -46,6 +47,7 @@ export async function run(argv: string[]): Promise<number> {
   const port = Number(portText);
   if (!Number.isInteger(port) || port < 0 || port > 65535) throw fail("INVALID_OPTION", { option: "--port", reason: `"${portText}" is not a port number (0–65535)` });
 
+  checkAdminToken(process.env.FACETWISE_ADMIN_TOKEN || undefined);
   const url = process.env.DATABASE_URL || undefined;
   const db = await openDatabase({ url, dataDir: values.data, migrate: true });
   let server;

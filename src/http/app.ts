@@ -13,6 +13,7 @@ import { entityTag } from "../service/pageVersion.ts";
 import { requireAdmin, publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
 import { requireDecodablePath, requireUsableText } from "./inputText.ts";
+import { securityHeaders } from "./securityHeaders.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -40,6 +41,7 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const app = express();
   app.disable("x-powered-by");
   app.set("etag", false);
+  app.use(securityHeaders);
   app.use(requireDecodablePath);
 
   app.get("/healthz", (_req, res) => {
