@@ -35,6 +35,7 @@ export const catalogue = {
   UNKNOWN_PICK: { status: 404, message: 'No pick "{pick}" on page "{page}"; send the pick id returned by POST /picks' },
   EVENT_REUSED: { status: 409, message: 'Event "{event}" was already recorded for another pick ({other}), so this conversion of pick {pick} was not stored; event ids are unique per page — send a new event id for each conversion' },
   PAGE_CHANGED: { status: 412, message: 'Page "{page}" was changed since you read it (If-Match {given}, now {current}); nothing was applied — read the page again and redo your edit on what it shows' },
+  RATE_LIMITED: { status: 429, message: "Too many requests {what}; retry after {retryAfter} s" },
   NOT_FOUND: { status: 404, message: "No route {method} {path}; see the API list in the README" },
   NOT_DEMO_PAGE: { status: 409, message: 'Page "{page}" is not the demo page; demo traffic only runs on the seeded demo' },
   DATABASE_UNAVAILABLE: { status: 503, message: "The database is unavailable ({reason}); retry shortly" },

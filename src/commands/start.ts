@@ -27,7 +27,9 @@ Options:
 
 Environment:
   DATABASE_URL           PostgreSQL connection string; unset = embedded database
-  FACETWISE_ADMIN_TOKEN  accepted as the admin token besides the stored one
+  FACETWISE_ADMIN_TOKEN  accepted as the admin token besides the stored one (at least 32 characters)
+  FACETWISE_TRUST_PROXY  behind a reverse proxy: which proxies to trust for the client address
+                         (express "trust proxy", e.g. "loopback" or "10.0.0.0/8"); rate limits use it
   PORT                   default port`;
 
 /** Demo visitors streamed once after seeding, so the console shows learning within a minute. */
@@ -55,6 +57,7 @@ export async function run(argv: string[]): Promise<number> {
     server = await startServer(db, {
       port, host: values.host ?? "127.0.0.1", foldLoop: !values["no-fold"],
       adminToken: process.env.FACETWISE_ADMIN_TOKEN || undefined,
+      trustProxy: process.env.FACETWISE_TRUST_PROXY || undefined,
     });
   } catch (error) {
     await db.close();

@@ -10,10 +10,11 @@ import { join } from "node:path";
 import { fail } from "../errors.ts";
 import type { Services } from "../service/index.ts";
 import { entityTag } from "../service/pageVersion.ts";
-import { requireAdmin, publicCors } from "./auth.ts";
+import { publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
 import { requireDecodablePath, requireUsableText } from "./inputText.ts";
 import { securityHeaders } from "./securityHeaders.ts";
+import { adminBrake, checkAddress, checkPage, TokenBuckets } from "./rateLimit.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -24,6 +25,10 @@ export interface AppOptions {
   webDir?: string | null;
   adminBodyLimit?: string;
   publicBodyLimit?: string;
+  /** rate limits on the public routes and the wrong-token brake (default true; test suites turn them off) */
+  rateLimits?: boolean;
+  /** express's `trust proxy` (FACETWISE_TRUST_PROXY): which proxies' X-Forwarded-For names the client */
+  trustProxy?: string;
 }
 
 const pageKey = (req: Request): string => parse(pageKeySchema, req.params.key, "key");
@@ -40,6 +45,15 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const publicLimit = options.publicBodyLimit ?? "16kb";
   const app = express();
   app.disable("x-powered-by");
+  if (options.trustProxy) app.set("trust proxy", options.trustProxy);
+  const buckets = options.rateLimits === false ? null : new TokenBuckets();
+  /** The public routes' limits: per address before the page is known, then the page's own. */
+  const limitPublic = async (req: Request, key: string) => {
+    if (!buckets) return;
+    checkAddress(buckets, req);
+    checkPage(buckets, req, key, (await services.serving.get(key)).settings);
+  };
+  const checkAdmin = (req: Request) => services.auth.requireAdmin(req.get("authorization"));
   app.set("etag", false);
   app.use(securityHeaders);
   app.use(requireDecodablePath);
@@ -60,11 +74,13 @@ export function createApp(services: Services, options: AppOptions = {}): express
   publicApi.use(requireUsableText);
   publicApi.post("/pages/:key/picks", async (req, res) => {
     const key = pageKey(req);
+    await limitPublic(req, key);
     const body = parse(pickSchema, req.body);
     res.json(await services.picks.pick(key, publicKeyOf(req), body));
   });
   publicApi.post("/pages/:key/outcomes", async (req, res) => {
     const key = pageKey(req);
+    await limitPublic(req, key);
     const body = parse(outcomeSchema, req.body);
     res.status(202).json(await services.outcomes.record(key, publicKeyOf(req), body));
   });
@@ -80,7 +96,10 @@ export function createApp(services: Services, options: AppOptions = {}): express
   });
 
   const admin = express.Router();
-  admin.use(requireAdmin(services.auth));
+  admin.use(buckets ? adminBrake(buckets, checkAdmin) : async (req, _res, next) => {
+    await checkAdmin(req);
+    next();
+  });
   admin.use(express.json({ limit: adminLimit, strict: true }));
   admin.use(requireUsableText);
   admin.get("/session", (_req, res) => {

@@ -47,6 +47,7 @@ export function errorHandler(bodyLimit: string) {
   return (error: unknown, _req: Request, res: Response, _next: NextFunction): void => {
     const mapped = toHttpError(error, bodyLimit);
     if (mapped.status === 503) res.set("Retry-After", String(RETRY_AFTER_SECONDS));
+    if (mapped.status === 429) res.set("Retry-After", String(mapped.params.retryAfter));
     if (res.headersSent) {
       res.end();
       return;

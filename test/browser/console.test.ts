@@ -436,12 +436,13 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(cspViolations).toEqual([]);
     const consoleResponse = await page.goto(`${server.url}/`);
     expect(consoleResponse?.headers()["content-security-policy"]).toMatch(/script-src 'self'/);
-    // a landing page on another origin (as in real use), with the snippet pasted as the console shows it
-    await page.route("http://landing.test/", (route) => route.fulfill({
+    // a landing page (answered by the browser itself, so without the console's policy) on the
+    // server's own origin, with the snippet pasted as the console shows it
+    await page.route(`${server.url}/landing-test.html`, (route) => route.fulfill({
       contentType: "text/html",
       body: `<!doctype html><h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a>${snippet}`,
     }));
-    await page.goto("http://landing.test/");
+    await page.goto(`${server.url}/landing-test.html`);
     await page.waitForFunction(() => document.documentElement.classList.contains("facets-ready"));
     expect(headlines).toContain(await page.textContent("h1"));
     const status = await page.evaluate(async () => {
