@@ -14,7 +14,7 @@ import { publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
 import { requireDecodablePath, requireUsableText } from "./inputText.ts";
 import { securityHeaders } from "./securityHeaders.ts";
-import { adminBrake, checkAddress, checkPage, TokenBuckets } from "./rateLimit.ts";
+import { ADMIN_TOKEN_BRAKE, braked, checkPage, TokenBuckets, UNKNOWN_PAGE_BRAKE } from "./rateLimit.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -47,11 +47,11 @@ export function createApp(services: Services, options: AppOptions = {}): express
   app.disable("x-powered-by");
   if (options.trustProxy) app.set("trust proxy", options.trustProxy);
   const buckets = options.rateLimits === false ? null : new TokenBuckets();
-  /** The public routes' limits: per address before the page is known, then the page's own. */
+  /** The public routes' limits: the brake on unknown page keys, then the page's own limits. */
   const limitPublic = async (req: Request, key: string) => {
     if (!buckets) return;
-    checkAddress(buckets, req);
-    checkPage(buckets, req, key, (await services.serving.get(key)).settings);
+    const page = await braked(buckets, req, UNKNOWN_PAGE_BRAKE, () => services.serving.get(key));
+    checkPage(buckets, req, key, page.settings);
   };
   const checkAdmin = (req: Request) => services.auth.requireAdmin(req.get("authorization"));
   app.set("etag", false);
@@ -96,8 +96,8 @@ export function createApp(services: Services, options: AppOptions = {}): express
   });
 
   const admin = express.Router();
-  admin.use(buckets ? adminBrake(buckets, checkAdmin) : async (req, _res, next) => {
-    await checkAdmin(req);
+  admin.use(async (req, _res, next) => {
+    await (buckets ? braked(buckets, req, ADMIN_TOKEN_BRAKE, () => checkAdmin(req)) : checkAdmin(req));
     next();
   });
   admin.use(express.json({ limit: adminLimit, strict: true }));

@@ -5,19 +5,18 @@
  * full rate.
  *
  * - Public routes (pick, outcome): one bucket per (page, client address) and one per page, sized
- *   by the page's settings `addressRequestsPerMinute` and `pageRequestsPerMinute`, and — before the
- *   page is looked up, so unknown page keys cannot be hammered either — one per address across
- *   all pages at ten times the default per-address rate.
- * - Admin routes: a brake on wrong admin tokens, 10 per minute per address; an address out of
- *   tries is refused 429 before its token is even checked.
+ *   by the page's settings `addressRequestsPerMinute` and `pageRequestsPerMinute`; and a brake on
+ *   unknown page keys, 60 per minute per address (each costs a database look-up).
+ * - Admin routes: a brake on wrong admin tokens, 10 per minute per address.
+ * A brake counts failures only; an address out of tries is refused 429 before it is checked again.
  */
-import type { NextFunction, Request, Response } from "express";
+import type { Request } from "express";
 import { fail } from "../errors.ts";
-import { defaultSettings } from "../model/index.ts";
 
 /** Bucket count above which full (idle) buckets are dropped; each costs ~100 bytes. */
 const PRUNE_ABOVE = 100_000;
 export const WRONG_TOKENS_PER_MINUTE = 10;
+export const UNKNOWN_PAGES_PER_MINUTE = 60;
 
 interface Bucket { tokens: number; at: number; perMinute: number }
 
@@ -67,11 +66,24 @@ const limited = (what: string, seconds: number) =>
 /** The client's address (the proxy's unless `trust proxy` is configured: see README). */
 export const addressOf = (req: Request): string => req.ip ?? req.socket.remoteAddress ?? "unknown";
 
-/** Public routes: the per-address limit across pages (call before looking the page up). */
-export function checkAddress(buckets: TokenBuckets, req: Request): void {
-  const wait = buckets.take(`a:${addressOf(req)}`, defaultSettings.addressRequestsPerMinute * 10);
-  if (wait > 0) throw limited("from your address", wait);
+/**
+ * Runs `attempt`; when it fails with the error code `failure`, the address loses one of its
+ * `perMinute` tries; with none left it is refused before `attempt` runs.
+ */
+export async function braked<T>(buckets: TokenBuckets, req: Request, brake: { name: string; perMinute: number; failure: string; what: string }, attempt: () => Promise<T>): Promise<T> {
+  const key = `${brake.name}:${addressOf(req)}`;
+  const wait = buckets.wait(key, brake.perMinute);
+  if (wait > 0) throw limited(brake.what, wait);
+  try {
+    return await attempt();
+  } catch (error) {
+    if ((error as { code?: string }).code === brake.failure) buckets.take(key, brake.perMinute);
+    throw error;
+  }
 }
+
+export const UNKNOWN_PAGE_BRAKE = { name: "u", perMinute: UNKNOWN_PAGES_PER_MINUTE, failure: "UNKNOWN_PAGE", what: "for unknown pages from your address" };
+export const ADMIN_TOKEN_BRAKE = { name: "t", perMinute: WRONG_TOKENS_PER_MINUTE, failure: "UNAUTHORIZED", what: "with wrong admin tokens from your address" };
 
 /** Public routes: the page's limits per address and in total. */
 export function checkPage(buckets: TokenBuckets, req: Request, page: string, settings: { addressRequestsPerMinute: number; pageRequestsPerMinute: number }): void {
@@ -81,21 +93,3 @@ export function checkPage(buckets: TokenBuckets, req: Request, page: string, set
   if (perPage > 0) throw limited(`to page "${page}"`, perPage);
 }
 
-/**
- * Wraps the admin check: an address with no wrong-token tries left is refused at once; each
- * refused token costs a try.
- */
-export function adminBrake(buckets: TokenBuckets, check: (req: Request) => Promise<void>) {
-  return async (req: Request, _res: Response, next: NextFunction) => {
-    const key = `t:${addressOf(req)}`;
-    const wait = buckets.wait(key, WRONG_TOKENS_PER_MINUTE);
-    if (wait > 0) throw limited("with wrong admin tokens from your address", wait);
-    try {
-      await check(req);
-    } catch (error) {
-      if ((error as { code?: string }).code === "UNAUTHORIZED") buckets.take(key, WRONG_TOKENS_PER_MINUTE);
-      throw error;
-    }
-    next();
-  };
-}

@@ -46,6 +46,15 @@ forEachDatabase("rate limits", (open) => {
     expect(statuses).toEqual([200, 200, 200, 429, 429]);
   });
 
+  it("brakes unknown page keys per address", async () => {
+    const statuses = new Map<number, number>();
+    for (let i = 0; i < 62; i++) {
+      const r = await pickFrom({ key: `nothing-${i}`, publicKey: "pk_x" }, "203.0.113.99", "v");
+      statuses.set(r.status, (statuses.get(r.status) ?? 0) + 1);
+    }
+    expect(Object.fromEntries(statuses)).toEqual({ 404: 60, 429: 2 });
+  });
+
   it("brakes wrong admin tokens per address, even before the right one", async () => {
     const call = (token: string, address: string) => h.call("GET", "/api/v1/pages", { headers: { authorization: `Bearer ${token}`, "x-forwarded-for": address } });
     const statuses: number[] = [];
