@@ -7,7 +7,7 @@
  */
 import { afterAll, beforeAll, expect, it } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "./harness.ts";
+import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "../integration/harness.ts";
 
 forEachDatabase("concurrent page edits", (open) => {
   let h: Harness;
