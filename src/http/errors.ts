@@ -21,7 +21,7 @@ export function toHttpError(error: unknown, bodyLimit: string): FacetwiseError {
   if (e?.type === "entity.parse.failed") {
     // strict parsing refuses valid JSON that is not an object or list ("hello", 42): say that
     if (typeof e.body === "string" && isJson(e.body)) {
-      return fail("INVALID_REQUEST", { field: "body", reason: `the body is a JSON ${typeof JSON.parse(e.body)}, not an object: send a JSON object such as {"visitor": "…"}` }, "body");
+      return fail("INVALID_REQUEST", { field: "body", reason: `the body is a JSON ${typeof JSON.parse(e.body)}, not an object: send a JSON object, {…}` }, "body");
     }
     return fail("MALFORMED_JSON", { reason: (e.message ?? "").split("\n")[0].slice(0, 200) }, "body");
   }
@@ -52,6 +52,9 @@ export function errorHandler(bodyLimit: string) {
       res.end();
       return;
     }
-    res.status(mapped.status).json({ error: mapped.toJSON() });
+    const body = mapped.toJSON();
+    // one path style for every field: the engine's "exclude[0].photo" reads "exclude.0.photo", as zod's paths do
+    if (body.field) body.field = body.field.replace(/\[(\d+)\]/g, ".$1");
+    res.status(mapped.status).json({ error: body });
   };
 }

@@ -19,6 +19,11 @@ const hostile = fc.constantFrom("", "\u0000", "a\u0000b", "\ud800", "x\udc00", "
   "<script>alert(1)</script>", "../../etc/passwd", "%ff", "'; DROP TABLE page; --", "a".repeat(300), " ", "short", "long", "shop", "title", "photo");
 /** Text of every kind, lone surrogates included (fc.string16bits draws any UTF-16 code unit). */
 const text = fc.oneof(hostile, fc.string({ maxLength: 40 }), fc.string16bits({ maxLength: 40 }), fc.fullUnicodeString({ maxLength: 20 }));
+/** Hostile text PostgreSQL can store: formula prefixes, markup, SQL, separators, astral characters. */
+const storable = fc.oneof(fc.constantFrom("=SUM(A1)", "+1", "-1", "@x", "\t=1", "<script>alert(1)</script>", "../../etc/passwd", "%ff",
+  "'; DROP TABLE page; --", "a".repeat(300), "\ud83d\ude00", "line\u2028break", "x, \"y\"\r\nz"), fc.fullUnicodeString({ minLength: 1, maxLength: 30 }));
+/** Mostly storable, sometimes not: what a near-valid request carries. */
+const mostlyStorable = fc.oneof({ weight: 4, arbitrary: storable }, { weight: 1, arbitrary: text });
 const scalar = fc.oneof(text, fc.integer(), fc.double(), fc.boolean(), fc.constant(null));
 const anyJson = fc.jsonValue({ maxDepth: 3 });
 const record = (values: fc.Arbitrary<unknown>) => fc.dictionary(text, values, { maxKeys: 4 });
@@ -34,24 +39,42 @@ const bodies: Record<string, fc.Arbitrary<unknown>> = {
   pick: fc.oneof(
     fc.record({ visitor: fc.oneof(text, scalar), context: fc.oneof(record(scalar), anyJson) }, { requiredKeys: [] }),
     // near valid: hostile text where the server stores it
-    fc.record({ visitor: text, context: fc.dictionary(fc.constantFrom("source", "campaign", "device"), fc.oneof(text, fc.integer(), fc.boolean()), { maxKeys: 3 }) }),
+    fc.record({ visitor: mostlyStorable, context: fc.dictionary(fc.constantFrom("source", "campaign", "device"), fc.oneof(mostlyStorable, fc.integer(), fc.boolean()), { maxKeys: 3 }) }),
   ),
   outcome: fc.oneof(
     fc.record({ pick: uuid, event: fc.oneof(text, scalar), value: fc.oneof(fc.double(), scalar) }, { requiredKeys: [] }),
-    fc.record({ pick: servedPick, event: text, value: fc.double() }, { requiredKeys: ["pick"] }),
+    fc.record({ pick: servedPick, event: mostlyStorable, value: fc.double() }, { requiredKeys: ["pick"] }),
   ),
-  page: fc.record({
+  page: fc.oneof(fc.record({
     key: fc.oneof(text, fc.stringMatching(/^[a-z0-9][a-z0-9-]{0,20}$/)), name: text, factors: fc.array(factor, { maxLength: 3 }),
     exclude: fc.array(record(text), { maxLength: 2 }), segmentBy: fc.array(text, { maxLength: 2 }), settings: record(scalar),
     interactions: fc.array(fc.tuple(text, text), { maxLength: 2 }),
   }, { requiredKeys: [] }),
-  patch: fc.record({
+  // near valid: a well-formed page whose names, values and settings are hostile
+  fc.record({
+    key: fc.stringMatching(/^[a-z0-9][a-z0-9-]{0,20}$/), name: mostlyStorable.map((n) => n.slice(0, 200)),
+    factors: fc.tuple(storable, storable, mostlyStorable, storable).map(([a, b, c, d]) => [
+      { name: "title", levels: [{ name: "a", value: a }, { name: "b", value: b }] },
+      { name: "photo", levels: [{ name: "p", value: c }, { name: d.slice(0, 100), value: "" }] },
+    ]),
+    exclude: fc.array(fc.record({ title: fc.constantFrom("a", "b", "zz"), photo: fc.constantFrom("p", "q") }, { requiredKeys: ["title"] }), { maxLength: 1 }),
+    segmentBy: fc.array(fc.constantFrom("source", "device", "source", "a|b"), { maxLength: 2 }),
+    settings: fc.dictionary(fc.constantFrom("foldIntervalSeconds", "samples", "explorationFloor", "addressRequestsPerMinute", "halfLifeDays"), fc.oneof(fc.integer({ min: 1, max: 5000 }), scalar), { maxKeys: 2 }),
+  }, { requiredKeys: ["key", "name", "factors"] })),
+  patch: fc.oneof(fc.record({
     name: text, status: fc.oneof(fc.constantFrom("active", "paused", "frozen"), text), settings: record(scalar),
     addLevels: fc.array(fc.record({ factor: fc.constantFrom("title", "photo", "button"), name: text, value: text }, { requiredKeys: [] }), { maxLength: 2 }),
     removeLevels: fc.array(fc.record({ factor: text, level: text }, { requiredKeys: [] }), { maxLength: 2 }),
     levelValues: fc.array(fc.record({ factor: fc.constantFrom("title", "photo"), level: fc.constantFrom("short", "long", "shop"), value: text }, { requiredKeys: [] }), { maxLength: 2 }),
     removeFactors: fc.array(text, { maxLength: 1 }), addFactors: fc.array(factor, { maxLength: 1 }),
   }, { requiredKeys: [] }),
+  // near valid: one well-formed edit carrying hostile text or settings
+  fc.oneof(
+    mostlyStorable.map((name) => ({ name })),
+    mostlyStorable.map((value) => ({ levelValues: [{ factor: "title", level: "short", value }] })),
+    fc.tuple(fc.string({ minLength: 1, maxLength: 10 }), mostlyStorable).map(([name, value]) => ({ addLevels: [{ factor: "button", name, value }] })),
+    fc.dictionary(fc.constantFrom("foldIntervalSeconds", "samples", "thompsonScale", "pageRequestsPerMinute"), scalar, { maxKeys: 2 }).map((settings) => ({ settings })),
+  )),
   demo: fc.record({ visitors: scalar }, { requiredKeys: [] }),
 };
 
@@ -100,6 +123,7 @@ forEachDatabase("fuzz of every route", (open) => {
     h = await startHarness(await open());
     publicKey = (await h.admin("POST", "/pages", testPage("fixture"))).body.publicKey;
     expect(publicKey).toBeTruthy();
+    servedPicks.length = 0;
     for (let i = 0; i < 10; i++) servedPicks.push((await h.pick({ key: "fixture", publicKey }, `served-${i}`, { source: "search" })).body.pick);
   });
   afterAll(async () => {
