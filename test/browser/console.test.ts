@@ -266,6 +266,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
 
   it("shows a leader per segment once the new page has traffic, with each level's value", async () => {
     const created = await api<{ publicKey: string }>("GET", "/pages/winter-tyres");
+    // every simulated visitor comes from 127.0.0.1: lift the page's per-address rate limit (default 120 a minute)
+    await api("PATCH", "/pages/winter-tyres", { settings: { addressRequestsPerMinute: 100_000 } });
     // demo traffic for this test page through the public API (invented rates: they only feed the screen)
     const rate = (combo: Record<string, { level: string }>) => (combo.hero.level === "photo" ? 0.5 : 0.1);
     const visit = async (i: number) => {
