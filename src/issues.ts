@@ -31,6 +31,9 @@ const FIELD: Record<string, string> = {
   rates: "exact rates", from: "starting visitor",
 };
 
+/** Fields whose word is a plural ("the factors are missing"). */
+const PLURAL = new Set(["factors", "levels", "settings", "exclude", "interactions", "segmentBy", "segments", "phases", "main", "pairs", "rates", "when"]);
+
 /** Expected types as words. */
 const TYPE: Record<string, string> = {
   string: "text", number: "a number", int: "a whole number", boolean: "true/false", array: "a list",
@@ -55,7 +58,7 @@ function received(input: unknown): string {
  * The path in words: the item it sits in ("level 2 of factor 1", or null at the top of the body),
  * and the thing itself ("the name of level 2 of factor 1", "factor 1", "the visitor id").
  */
-function named(path: PropertyKey[]): { owner: string | null; last: string | null; subject: string } {
+function named(path: PropertyKey[]): { owner: string | null; last: string | null; subject: string; verb: "is" | "are" } {
   const items: string[] = [];
   let last: string | null = null;
   for (let i = 0; i < path.length; i++) {
@@ -70,7 +73,9 @@ function named(path: PropertyKey[]): { owner: string | null; last: string | null
   const owner = items.length ? items.join(" of ") : null;
   const lastWord = last === null ? "" : last in FIELD ? `the ${FIELD[last]}` : quote(last);
   const subject = last === null ? owner ?? "the body" : owner ? `${lastWord} ${last in FIELD ? "of" : "in"} ${owner}` : lastWord;
-  return { owner, last, subject };
+  // "is" or "are": the subject is plural only when it is a plural field itself, not a part of one
+  const verb = last !== null && owner === null && PLURAL.has(last) ? "are" : "is";
+  return { owner, last, subject, verb };
 }
 
 /**
@@ -87,11 +92,11 @@ export function firstIssue(issues: Issue[]): Issue {
 
 /** A sentence saying what to fix, without the path (the error's `field` carries it). */
 export function reasonOf(issue: Issue, subject = named(issue.path).subject): string {
-  const { owner, last } = named(issue.path);
+  const { owner, last, verb } = named(issue.path);
   switch (issue.code) {
     case "invalid_type": {
       const expected = TYPE[issue.expected] ?? issue.expected;
-      return issue.input === undefined ? `${subject} is missing: send ${expected}` : `${subject} must be ${expected}, not ${received(issue.input)}`;
+      return issue.input === undefined ? `${subject} ${verb} missing: send ${expected}` : `${subject} must be ${expected}, not ${received(issue.input)}`;
     }
     case "too_small": {
       const n = Number(issue.minimum);
@@ -129,7 +134,7 @@ export function reasonOf(issue: Issue, subject = named(issue.path).subject): str
       if (near?.[0]) return reasonOf({ ...near[0], path: issue.path, input: issue.input } as Issue, subject);
       const types = issue.errors.map((branch) => branch[0]?.code === "invalid_type" ? TYPE[branch[0].expected] ?? branch[0].expected : null);
       if (types.every((t): t is string => t !== null)) return `${subject} must be ${oneOf(types)}${issue.input === undefined ? "" : `, not ${received(issue.input)}`}`;
-      return `${subject} is not valid`;
+      return `${subject} ${verb} not valid`;
     }
     case "invalid_key":
       return issue.issues[0] ? reasonOf({ ...issue.issues[0], path: issue.path } as Issue, `the name of ${subject}`) : `the name of ${subject} is not valid`;
@@ -138,6 +143,6 @@ export function reasonOf(issue: Issue, subject = named(issue.path).subject): str
     case "custom":
       return issue.message;
     default:
-      return `${subject} is not valid`;
+      return `${subject} ${verb} not valid`;
   }
 }

@@ -7,6 +7,7 @@ import { parseArgs } from "node:util";
 import { fail } from "../errors.ts";
 import { DEFAULT_DATA_DIR, openDatabase, redact } from "../store/database.ts";
 import { startServer } from "../http/server.ts";
+import { checkAdminToken } from "../service/auth.ts";
 
 export const summary = "run the server (API, fold loop, admin console); embedded database unless DATABASE_URL is set";
 
@@ -26,7 +27,9 @@ Options:
 
 Environment:
   DATABASE_URL           PostgreSQL connection string; unset = embedded database
-  FACETWISE_ADMIN_TOKEN  accepted as the admin token besides the stored one
+  FACETWISE_ADMIN_TOKEN  accepted as the admin token besides the stored one (at least 32 characters)
+  FACETWISE_TRUST_PROXY  behind a reverse proxy: which proxies to trust for the client address
+                         (express "trust proxy", e.g. "loopback" or "10.0.0.0/8"); rate limits use it
   PORT                   default port`;
 
 /** Demo visitors streamed once after seeding, so the console shows learning within a minute. */
@@ -46,6 +49,7 @@ export async function run(argv: string[]): Promise<number> {
   const port = Number(portText);
   if (!Number.isInteger(port) || port < 0 || port > 65535) throw fail("INVALID_OPTION", { option: "--port", reason: `"${portText}" is not a port number (0–65535)` });
 
+  checkAdminToken(process.env.FACETWISE_ADMIN_TOKEN || undefined);
   const url = process.env.DATABASE_URL || undefined;
   const db = await openDatabase({ url, dataDir: values.data, migrate: true });
   let server;
@@ -53,6 +57,7 @@ export async function run(argv: string[]): Promise<number> {
     server = await startServer(db, {
       port, host: values.host ?? "127.0.0.1", foldLoop: !values["no-fold"],
       adminToken: process.env.FACETWISE_ADMIN_TOKEN || undefined,
+      trustProxy: process.env.FACETWISE_TRUST_PROXY || undefined,
     });
   } catch (error) {
     await db.close();

@@ -9,8 +9,12 @@ import { existsSync } from "node:fs";
 import { join } from "node:path";
 import { fail } from "../errors.ts";
 import type { Services } from "../service/index.ts";
-import { requireAdmin, publicCors } from "./auth.ts";
+import { entityTag } from "../service/pageVersion.ts";
+import { publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
+import { requireDecodablePath, requireUsableText } from "./inputText.ts";
+import { securityHeaders } from "./securityHeaders.ts";
+import { ADMIN_TOKEN_BRAKE, braked, checkPage, TokenBuckets, UNKNOWN_PAGE_BRAKE } from "./rateLimit.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -21,6 +25,10 @@ export interface AppOptions {
   webDir?: string | null;
   adminBodyLimit?: string;
   publicBodyLimit?: string;
+  /** rate limits on the public routes and the wrong-token brake (default true; test suites turn them off) */
+  rateLimits?: boolean;
+  /** express's `trust proxy` (FACETWISE_TRUST_PROXY): which proxies' X-Forwarded-For names the client */
+  trustProxy?: string;
 }
 
 const pageKey = (req: Request): string => parse(pageKeySchema, req.params.key, "key");
@@ -37,7 +45,18 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const publicLimit = options.publicBodyLimit ?? "16kb";
   const app = express();
   app.disable("x-powered-by");
+  if (options.trustProxy) app.set("trust proxy", options.trustProxy);
+  const buckets = options.rateLimits === false ? null : new TokenBuckets();
+  /** The public routes' limits: the brake on unknown page keys, then the page's own limits. */
+  const limitPublic = async (req: Request, key: string) => {
+    if (!buckets) return;
+    const page = await braked(buckets, req, UNKNOWN_PAGE_BRAKE, () => services.serving.get(key));
+    checkPage(buckets, req, key, page.settings);
+  };
+  const checkAdmin = (req: Request) => services.auth.requireAdmin(req.get("authorization"));
   app.set("etag", false);
+  app.use(securityHeaders);
+  app.use(requireDecodablePath);
 
   app.get("/healthz", (_req, res) => {
     res.json({ ok: true });
@@ -52,13 +71,16 @@ export function createApp(services: Services, options: AppOptions = {}): express
   const publicApi = express.Router();
   publicApi.use(publicCors);
   publicApi.use(express.json({ limit: publicLimit, type: ["application/json", "text/plain"], strict: true }));
+  publicApi.use(requireUsableText);
   publicApi.post("/pages/:key/picks", async (req, res) => {
     const key = pageKey(req);
+    await limitPublic(req, key);
     const body = parse(pickSchema, req.body);
     res.json(await services.picks.pick(key, publicKeyOf(req), body));
   });
   publicApi.post("/pages/:key/outcomes", async (req, res) => {
     const key = pageKey(req);
+    await limitPublic(req, key);
     const body = parse(outcomeSchema, req.body);
     res.status(202).json(await services.outcomes.record(key, publicKeyOf(req), body));
   });
@@ -74,8 +96,12 @@ export function createApp(services: Services, options: AppOptions = {}): express
   });
 
   const admin = express.Router();
-  admin.use(requireAdmin(services.auth));
+  admin.use(async (req, _res, next) => {
+    await (buckets ? braked(buckets, req, ADMIN_TOKEN_BRAKE, () => checkAdmin(req)) : checkAdmin(req));
+    next();
+  });
   admin.use(express.json({ limit: adminLimit, strict: true }));
+  admin.use(requireUsableText);
   admin.get("/session", (_req, res) => {
     res.json({ ok: true, scope: "admin", demoPage: services.demoPageKey, defaultSettings: services.defaultSettings });
   });
@@ -89,12 +115,15 @@ export function createApp(services: Services, options: AppOptions = {}): express
   admin.get("/pages", async (_req, res) => {
     res.json({ pages: await services.pages.list() });
   });
+  // optimistic concurrency: GET and PATCH answer an ETag; a PATCH with If-Match applies only to that version
   admin.get("/pages/:key", async (req, res) => {
-    res.json(await services.pages.get(pageKey(req)));
+    const { page, version } = await services.pages.read(pageKey(req));
+    res.set("ETag", entityTag(version)).json(page);
   });
   admin.patch("/pages/:key", async (req, res) => {
     const key = pageKey(req);
-    res.json(await services.pages.patch(key, parse(patchPageSchema, req.body)));
+    const { version, ...result } = await services.pages.patch(key, parse(patchPageSchema, req.body), req.get("if-match"));
+    res.set("ETag", entityTag(version)).json(result);
   });
   admin.get("/pages/:key/report", async (req, res) => {
     res.json(await services.reports.report(pageKey(req)));

@@ -1,13 +1,5 @@
-/** Express middleware for the two kinds of caller: the admin (Bearer token) and landing pages (X-Page-Key, checked by the services). */
+/** CORS for landing pages (X-Page-Key, checked by the services); the admin check is in app.ts with its brake (rateLimit.ts). */
 import type { NextFunction, Request, Response } from "express";
-import type { AuthService } from "../service/auth.ts";
-
-export function requireAdmin(auth: AuthService) {
-  return async (req: Request, _res: Response, next: NextFunction) => {
-    await auth.requireAdmin(req.get("authorization"));
-    next();
-  };
-}
 
 /**
  * Landing pages call the public routes from their own origins. Only POST and the X-Page-Key

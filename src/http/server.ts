@@ -60,5 +60,7 @@ function pick(options: AppOptions): AppOptions {
   const out: AppOptions = {};
   if (options.adminBodyLimit) out.adminBodyLimit = options.adminBodyLimit;
   if (options.publicBodyLimit) out.publicBodyLimit = options.publicBodyLimit;
+  if (options.rateLimits !== undefined) out.rateLimits = options.rateLimits;
+  if (options.trustProxy) out.trustProxy = options.trustProxy;
   return out;
 }

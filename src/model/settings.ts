@@ -73,6 +73,9 @@ export const settingsSchema = z.strictObject({
   thompsonScale: z.number().gt(0).max(1).default(0.6),
   samples: z.number().int().min(100).max(100_000).default(1000),
   maxSegments: z.number().int().min(1).max(100_000).default(200),
+  // public-route rate limits (token buckets, src/http/rateLimit.ts): not statistics, but per page
+  addressRequestsPerMinute: z.number().int().min(1).max(1_000_000).default(120),
+  pageRequestsPerMinute: z.number().int().min(1).max(100_000_000).default(60_000),
 });
 
 export type PageSettings = z.output<typeof settingsSchema>;

@@ -22,11 +22,25 @@ export function checkPublicKey(page: Pick<StoredPage, "publicKey" | "key">, give
   if (!timingSafeEqual(a, b)) throw fail("FORBIDDEN", { reason: `X-Page-Key is not the public key of page "${page.key}"` });
 }
 
+/** Shortest FACETWISE_ADMIN_TOKEN accepted: 32 characters (≥ 128 bits if random base64). */
+export const MIN_ADMIN_TOKEN_LENGTH = 32;
+
+/** Refuses a FACETWISE_ADMIN_TOKEN too short to withstand guessing. */
+export function checkAdminToken(token: string | undefined): void {
+  if (token === undefined || token.length >= MIN_ADMIN_TOKEN_LENGTH) return;
+  throw fail("INVALID_OPTION", {
+    option: "FACETWISE_ADMIN_TOKEN",
+    reason: `it has ${token.length} characters; use at least ${MIN_ADMIN_TOKEN_LENGTH} random ones (for example the output of: openssl rand -base64 32), or unset it and use the token printed at first start`,
+  });
+}
+
 export class AuthService {
   /** hashes recently confirmed, so each admin request does not cost a query */
   private readonly confirmed = new Map<string, number>();
 
-  constructor(private readonly pool: Pool, private readonly envToken: string | undefined) {}
+  constructor(private readonly pool: Pool, private readonly envToken: string | undefined) {
+    checkAdminToken(envToken);
+  }
 
   /** Creates the admin token if the database has none; returns it (to print once) or null. */
   async ensureAdminToken(): Promise<string | null> {

@@ -19,6 +19,7 @@ import type { Pool, PoolClient } from "pg";
 import { serializeState } from "../model/index.ts";
 import type { Design, FoldCycleInput, FoldCycleOutput, ModelState, PageSettings, RetiredEntry } from "../model/index.ts";
 import { checkout, inTransaction, release, type Queryable } from "../store/repositories/sql.ts";
+import { withRetry } from "../store/retry.ts";
 import { loadPageById } from "../store/repositories/pages.ts";
 import {
   databaseNow, dueForFold, foldPageRow, insertAllocations, insertFoldLog, insertSnapshot, loadRetired, loadSnapshot,
@@ -217,7 +218,8 @@ export class FoldLoop extends EventEmitter {
       return writeResults(client, inputs, input, output, rows, started, this.context.notify);
     };
     try {
-      return session ? await transactionOn(session, commit) : await inTransaction(this.pool, commit);
+      // a deadlock victim rolled back whole: commit again (the checks above run again too)
+      return await withRetry(() => session ? transactionOn(session, commit) : inTransaction(this.pool, commit));
     } catch (error) {
       if (error instanceof RacedFold) return { folded: false, page: inputs.key, reason: "raced" };
       throw error;

@@ -27,6 +27,8 @@ export class OutcomeService {
       switch (result.kind) {
         case "unknown-pick":
           throw fail("UNKNOWN_PICK", { pick: request.pick, page: pageKey }, "pick");
+        case "event-reused":
+          throw fail("EVENT_REUSED", { event: request.event ?? "", other: result.pick, pick: request.pick }, "event");
         case "duplicate":
           return { accepted: true, duplicate: true, counted: false, reason: `event "${request.event}" was already recorded; it is counted once` };
         case "counted":

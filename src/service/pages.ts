@@ -21,6 +21,8 @@ import { foldInTransaction, type FoldContext } from "./folds.ts";
 import { newPublicKey } from "./auth.ts";
 import { asServiceError } from "./errors.ts";
 import { loadState } from "./modelState.ts";
+import { checkIfMatch, pageVersion } from "./pageVersion.ts";
+import { withRetry } from "../store/retry.ts";
 
 export interface LevelInput { name: string; value?: string }
 export interface FactorInput { name: string; levels: LevelInput[] }
@@ -123,10 +125,15 @@ export class PageService extends EventEmitter {
   }
 
   async get(key: string): Promise<PageView> {
+    return (await this.read(key)).page;
+  }
+
+  /** The page and its version (the ETag a PATCH may send back in If-Match). */
+  async read(key: string): Promise<{ page: PageView; version: string }> {
     try {
       const page = await this.stored(key);
       const totals = await pageTotals(this.pool, [page.id]);
-      return pageView(page, designOf(page), totals.get(page.id));
+      return { page: pageView(page, designOf(page), totals.get(page.id)), version: pageVersion(page) };
     } catch (error) {
       throw asServiceError(error);
     }
@@ -138,12 +145,22 @@ export class PageService extends EventEmitter {
     return page;
   }
 
-  async patch(key: string, patch: PagePatch): Promise<{ page: PageView; learned: Learned }> {
+  /**
+   * Applies an edit. The page is read inside the transaction, after the page's lock is taken, so
+   * an edit committed meanwhile by someone else is built upon, never overwritten; `ifMatch` (the
+   * If-Match header) refuses the edit with PAGE_CHANGED when the page is no longer the one the
+   * client read.
+   */
+  async patch(key: string, patch: PagePatch, ifMatch?: string): Promise<{ page: PageView; learned: Learned; version: string }> {
     try {
-      const page = await this.stored(key);
-      const plan = planEdit(page, patch);
-      const learned = await inTransaction(this.pool, async (client) => {
-        await foldLock(client, page.id);
+      const learned = await withRetry(() => inTransaction(this.pool, async (client) => {
+        const found = await loadPage(client, key);
+        if (!found) throw fail("UNKNOWN_PAGE", { page: key }, "page");
+        await foldLock(client, found.id);
+        // read again under the lock: this statement's snapshot sees every edit committed before it
+        const page = (await loadPage(client, key))!;
+        checkIfMatch(page, ifMatch);
+        const plan = planEdit(page, patch);
         const fields: Parameters<typeof updatePageFields>[2] = {};
         if (patch.name !== undefined) fields.name = patch.name;
         if (patch.status !== undefined) fields.status = patch.status;
@@ -174,9 +191,10 @@ export class PageService extends EventEmitter {
         // Rebuild allocations now so the edit is served at once (not at the next scheduled fold).
         if (plan.newDesign || plan.settingsChanged || patch.status !== undefined) await foldInTransaction(client, page.id, this.fold);
         return result;
-      });
+      }));
       this.emit("changed", key);
-      return { page: await this.get(key), learned };
+      const { page, version } = await this.read(key);
+      return { page, learned, version };
     } catch (error) {
       throw asServiceError(error);
     }

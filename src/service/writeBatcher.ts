@@ -8,6 +8,7 @@ import type { Pool, PoolClient } from "pg";
 import { fail, FacetwiseError } from "../errors.ts";
 import { asServiceError } from "./errors.ts";
 import { checkout, release } from "../store/repositories/sql.ts";
+import { withRetry } from "../store/retry.ts";
 
 type Work<T> = (client: PoolClient) => Promise<T>;
 
@@ -59,6 +60,25 @@ export class WriteBatcher {
 
   private async commit(batch: Item[], retryAlone: boolean): Promise<void> {
     const outcomes: { ok: boolean; value: unknown }[] = [];
+    try {
+      // a deadlock or serialization victim rolled back whole: run the same batch again
+      await withRetry(() => this.run(batch, outcomes));
+    } catch (error) {
+      const mapped = asServiceError(error);
+      if (retryAlone && batch.length > 1 && mapped.code !== "DATABASE_UNAVAILABLE" && mapped.code !== "DATABASE_BUSY") {
+        // One bad write must not sink the others: replay each in its own transaction.
+        for (const item of batch) await this.commit([item], false);
+        return;
+      }
+      for (const item of batch) item.reject(mapped);
+      return;
+    }
+    batch.forEach((item, i) => (outcomes[i].ok ? item.resolve(outcomes[i].value) : item.reject(outcomes[i].value)));
+  }
+
+  /** One attempt at committing `batch`; fills `outcomes` (emptied first) when it commits. */
+  private async run(batch: Item[], outcomes: { ok: boolean; value: unknown }[]): Promise<void> {
+    outcomes.length = 0;
     let client: PoolClient | undefined;
     let broken = false;
     try {
@@ -83,17 +103,9 @@ export class WriteBatcher {
         release(client, broken);
         client = undefined;
       }
-      const mapped = asServiceError(error);
-      if (retryAlone && batch.length > 1 && mapped.code !== "DATABASE_UNAVAILABLE") {
-        // One bad write must not sink the others: replay each in its own transaction.
-        for (const item of batch) await this.commit([item], false);
-        return;
-      }
-      for (const item of batch) item.reject(mapped);
-      return;
+      throw error;
     } finally {
       if (client) release(client, false);
     }
-    batch.forEach((item, i) => (outcomes[i].ok ? item.resolve(outcomes[i].value) : item.reject(outcomes[i].value)));
   }
 }

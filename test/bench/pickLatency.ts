@@ -66,7 +66,7 @@ async function runServer(): Promise<void> {
   const token = "fw_admin_bench";
   const dataDir = values.url ? undefined : mkdtempSync(join(tmpdir(), "facetwise-bench-"));
   const db = await openDatabase({ url: values.url, dataDir, migrate: true });
-  const server = await startServer(db, { adminToken: token, foldLoop: false, webDir: null });
+  const server = await startServer(db, { adminToken: token, foldLoop: false, webDir: null, rateLimits: false }); // one client address sends every pick
   const pageKey = `bench-${Date.now().toString(36)}`;
   try {
     // a page the size of a typical landing page: 3×3×2×2×2 = 72 combinations, 3 segments

@@ -120,6 +120,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
   let snippet = "";
   /** The token must never appear in an address the console navigates to. */
   const visited: string[] = [];
+  /** Chromium's reports of anything the console's Content-Security-Policy refused (must stay empty). */
+  const cspViolations: string[] = [];
 
   beforeAll(async () => {
     mkdirSync(shots, { recursive: true });
@@ -138,6 +140,9 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     page = context.pages()[0] ?? (await context.newPage());
     page.on("framenavigated", (frame) => visited.push(frame.url()));
     page.on("request", (request) => visited.push(request.url()));
+    page.on("console", (message) => {
+      if (/Content Security Policy/i.test(message.text())) cspViolations.push(message.text());
+    });
   }, 180_000);
 
   afterAll(async () => {
@@ -261,6 +266,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
 
   it("shows a leader per segment once the new page has traffic, with each level's value", async () => {
     const created = await api<{ publicKey: string }>("GET", "/pages/winter-tyres");
+    // every simulated visitor comes from 127.0.0.1: lift the page's per-address rate limit (default 120 a minute)
+    await api("PATCH", "/pages/winter-tyres", { settings: { addressRequestsPerMinute: 100_000 } });
     // demo traffic for this test page through the public API (invented rates: they only feed the screen)
     const rate = (combo: Record<string, { level: string }>) => (combo.hero.level === "photo" ? 0.5 : 0.1);
     const visit = async (i: number) => {
@@ -427,8 +434,17 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     const demo = await api<{ factors: { name: string; levels: { name: string; value?: string }[] }[] }>("GET", "/pages/bike-repair-demo");
     const headlines = demo.factors.find((f) => f.name === "headline")?.levels.map((l) => l.value ?? l.name) ?? [];
     expect(headlines.length).toBeGreaterThan(1);
-    // a landing page on the server's own origin, with the snippet pasted as the console shows it
-    await page.setContent(`<h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a>${snippet}`);
+    // the console ran under its strict Content-Security-Policy without a single refusal
+    expect(cspViolations).toEqual([]);
+    const consoleResponse = await page.goto(`${server.url}/`);
+    expect(consoleResponse?.headers()["content-security-policy"]).toMatch(/script-src 'self'/);
+    // a landing page (answered by the browser itself, so without the console's policy) on the
+    // server's own origin, with the snippet pasted as the console shows it
+    await page.route(`${server.url}/landing-test.html`, (route) => route.fulfill({
+      contentType: "text/html",
+      body: `<!doctype html><h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a>${snippet}`,
+    }));
+    await page.goto(`${server.url}/landing-test.html`);
     await page.waitForFunction(() => document.documentElement.classList.contains("facets-ready"));
     expect(headlines).toContain(await page.textContent("h1"));
     const status = await page.evaluate(async () => {

@@ -3,7 +3,8 @@
  * to fix, no stack trace, and nothing written (the whole database is fingerprinted before and
  * after). Status codes per RFC 9110 §15.5 (400, 401, 403, 404, 409, 413).
  */
-import { afterAll, beforeAll, expect, it } from "vitest";
+import { afterAll, beforeAll, expect, it, vi } from "vitest";
+import { request } from "node:http";
 import { forEachDatabase } from "../support/databases.ts";
 import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "./harness.ts";
 
@@ -21,6 +22,8 @@ interface Case {
   field?: string;
   /** the whole message, where the wording itself is under test (src/issues.ts writes it) */
   message?: string;
+  /** a part of the message that must be there */
+  says?: RegExp;
 }
 
 const P = "/api/v1/pages/fixture";
@@ -59,7 +62,7 @@ const cases: Case[] = [
   { name: "page without factors", method: "POST", path: "/api/v1/pages", body: { ...testPage("nofactors"), factors: [] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors", message: "factors: add at least 1 factor" },
   { name: "factor without a name", method: "POST", path: "/api/v1/pages", body: { ...testPage("noname"), factors: [{ name: "", levels: [{ name: "a" }, { name: "b" }] }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors.0.name", message: "factors.0.name: factor 1 needs a name" },
   { name: "level name too long", method: "POST", path: "/api/v1/pages", body: { ...testPage("longlevel"), factors: [{ name: "title", levels: [{ name: "a" }, { name: "b".repeat(101) }] }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors.0.levels.1.name", message: "factors.0.levels.1.name: the name of level 2 of factor 1 is too long: use at most 100 characters" },
-  { name: "exclusion naming an unknown level", method: "POST", path: "/api/v1/pages", body: { ...testPage("badrule"), exclude: [{ photo: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL" },
+  { name: "exclusion naming an unknown level", method: "POST", path: "/api/v1/pages", body: { ...testPage("badrule"), exclude: [{ photo: "sunset" }] }, as: "admin", status: 400, code: "UNKNOWN_LEVEL", field: "exclude.0.photo" },
   { name: "interaction naming an unknown factor", method: "POST", path: "/api/v1/pages", body: { ...testPage("badpair"), interactions: [["title", "colour"]] }, as: "admin", status: 400, code: "UNKNOWN_FACTOR" },
   { name: "duplicate level names", method: "POST", path: "/api/v1/pages", body: { ...testPage("dup"), factors: [{ name: "title", levels: [{ name: "a" }, { name: "a" }] }] }, as: "admin", status: 400, code: "INVALID_DEFINITION" },
   { name: "setting out of range", method: "POST", path: "/api/v1/pages", body: { ...testPage("badsetting"), settings: { baselineShare: 1.5 } }, as: "admin", status: 400, code: "INVALID_SETTING", field: "baselineShare", message: 'Invalid setting "baselineShare": the value must be less than 1' },
@@ -88,7 +91,38 @@ const cases: Case[] = [
   { name: "demo traffic on a normal page", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 10 }, as: "admin", status: 409, code: "NOT_DEMO_PAGE" },
   { name: "demo traffic: zero visitors", method: "POST", path: `${P}/demo-traffic`, body: { visitors: 0 }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "visitors", message: "visitors: the number of visitors must be at least 1" },
   { name: "unknown API route", method: "GET", path: "/api/v1/nothing-here", as: "admin", status: 404, code: "NOT_FOUND" },
+  // text PostgreSQL cannot store, addresses that do not decode, and error texts (issue 11)
+  { name: "path with bad percent-encoding", method: "POST", path: "/api/v1/pages/%ff/picks", body: { visitor: "v" }, as: "none", status: 400, code: "INVALID_REQUEST", field: "path" },
+  { name: "admin path with bad percent-encoding", method: "GET", path: "/api/v1/pages/%c3%28/report", as: "admin", status: 400, code: "INVALID_REQUEST", field: "path" },
+  { name: "dot segment as the page key", method: "POST", path: "/api/v1/pages/./picks", body: { visitor: "v" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "key" },
+  { name: "pick: NUL in the visitor id", method: "POST", path: `${P}/picks`, body: { visitor: "a\u0000b" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor", says: /NUL/ },
+  { name: "pick: NUL in a context value", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { source: "x\u0000" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.source" },
+  { name: "pick: NUL in a context name", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { "so\u0000urce": "x" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.so\u0000urce" },
+  { name: "pick: lone surrogate in a context value", method: "POST", path: `${P}/picks`, body: { visitor: "v", context: { source: "x\ud800" } }, as: "page", status: 400, code: "INVALID_REQUEST", field: "context.source", says: /surrogate/ },
+  { name: "pick: lone surrogate in the visitor id", method: "POST", path: `${P}/picks`, body: { visitor: "\udc00v" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "visitor" },
+  { name: "pick: a JSON string body", method: "POST", path: `${P}/picks`, raw: '"hello"', headers: { "content-type": "application/json" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "body", says: /JSON string, not an object/ },
+  { name: "pick: 17 kB body states the 16 kB limit", method: "POST", path: `${P}/picks`, body: { visitor: "x".repeat(17_000) }, as: "page", status: 413, code: "BODY_TOO_LARGE", says: /16 kB \(16384 bytes\)/ },
+  { name: "outcome: NUL in the event id", method: "POST", path: `${P}/outcomes`, body: { pick: UNKNOWN_UUID, event: "e\u0000" }, as: "page", status: 400, code: "INVALID_REQUEST", field: "event" },
+  { name: "NUL in the page name", method: "POST", path: "/api/v1/pages", body: { ...testPage("nulname"), name: "a\u0000" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "name" },
+  { name: "lone surrogate in a level value", method: "POST", path: "/api/v1/pages", body: { ...testPage("surrogate"), factors: [{ name: "title", levels: [{ name: "a", value: "x\ud83d" }, { name: "b" }] }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors.0.levels.0.value" },
+  { name: "edit: lone surrogate in a level value", method: "PATCH", path: P, body: { levelValues: [{ factor: "title", level: "short", value: "\udfff" }] }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "levelValues.0.value" },
+  { name: "NUL in a query string", method: "GET", path: `${P}/export?format=js%00on`, as: "admin", status: 400, code: "INVALID_REQUEST", field: "query.format" },
+  { name: "page without its factors", method: "POST", path: "/api/v1/pages", body: { key: "nofactors2", name: "n" }, as: "admin", status: 400, code: "INVALID_REQUEST", field: "factors", message: "factors: the factors are missing: send a list" },
 ];
+
+/** Sends the path exactly as written (fetch would remove "./" dot segments, RFC 3986 §5.2.4). */
+function rawRequest(url: string, method: string, path: string, headers: Record<string, string>, body?: unknown): Promise<{ status: number; text: string }> {
+  const payload = body === undefined ? undefined : JSON.stringify(body);
+  return new Promise((resolve, reject) => {
+    const { hostname, port } = new URL(url);
+    const req = request({ hostname, port, path, method, headers: { ...headers, ...(payload ? { "content-type": "application/json" } : {}) } }, (res) => {
+      let text = "";
+      res.on("data", (d) => (text += d)).on("end", () => resolve({ status: res.statusCode ?? 0, text }));
+    });
+    req.on("error", reject);
+    req.end(payload);
+  });
+}
 
 const TABLES = ["page", "factor", "level", "exclusion_rule", "segment", "pick", "assignment", "outcome", "posterior_snapshot", "allocation_record", "retired_combination", "api_key", "fold_log"];
 
@@ -122,16 +156,42 @@ forEachDatabase("bad inputs", (open) => {
     if (c.as === "admin") headers.authorization = `Bearer ${ADMIN_TOKEN}`;
     if (c.as === "page") headers["x-page-key"] = publicKey;
     const before = await fingerprint();
-    const r = await h.call(c.method, c.path, { body: c.body, raw: c.raw, headers });
+    // a client's mistake is answered, not logged: nothing reaches the server log
+    const logged: unknown[] = [];
+    const spies = (["error", "warn", "log"] as const).map((m) => vi.spyOn(console, m).mockImplementation((...a: unknown[]) => void logged.push(a)));
+    const r = c.path.includes("/./")
+      ? await rawRequest(h.url, c.method, c.path, headers, c.body).then((x) => ({ ...x, body: JSON.parse(x.text) }))
+      : await h.call(c.method, c.path, { body: c.body, raw: c.raw, headers });
+    spies.forEach((spy) => spy.mockRestore());
+    expect(logged).toEqual([]);
     expect(r.status).toBe(c.status);
     expect(r.body.error.code).toBe(c.code);
     expect(typeof r.body.error.message).toBe("string");
     expect(r.body.error.message).not.toMatch(/\{\w+\}/); // every template placeholder filled
     if (c.field !== undefined) expect(r.body.error.field).toBe(c.field);
     if (c.message !== undefined) expect(r.body.error.message).toBe(c.message);
+    if (c.says !== undefined) expect(r.body.error.message).toMatch(c.says);
     // zod's own wording (its default messages, zod 4) never reaches a user
     expect(r.body.error.message).not.toMatch(/Too small|Too big|Invalid input|Invalid option|Unrecognized key|expected \w+ to have|received \w+$/);
     expect(r.text).not.toMatch(/\.ts:\d+|node_modules|at \w+ \(/); // no stack trace
+    expect(await fingerprint()).toBe(before);
+  });
+
+  it("an event id reused on another pick is refused with 409 saying so, and nothing is written", async () => {
+    const page = { key: "fixture", publicKey };
+    const first = await h.pick(page, "reuse-1");
+    const second = await h.pick(page, "reuse-2");
+    expect((await h.outcome(page, { pick: first.body.pick, event: "order-77" })).status).toBe(202);
+    const again = await h.outcome(page, { pick: first.body.pick, event: "order-77" });
+    expect(again.status).toBe(202);
+    expect(again.body.duplicate).toBe(true);
+    const before = await fingerprint();
+    const r = await h.outcome(page, { pick: second.body.pick, event: "order-77" });
+    expect(r.status).toBe(409);
+    expect(r.body.error.code).toBe("EVENT_REUSED");
+    expect(r.body.error.field).toBe("event");
+    expect(r.body.error.message).toContain(first.body.pick);
+    expect(r.body.error.message).toContain("another pick");
     expect(await fingerprint()).toBe(before);
   });
 

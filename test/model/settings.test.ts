@@ -12,6 +12,8 @@ describe("page settings", () => {
       baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
       retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.1, segmentInterceptSpread: 1, priorInterceptMean: -3, priorInterceptScale: 2,
       priorMainScale: 0.25, priorInteractionScale: 0.1, thompsonScale: 0.6, samples: 1000, maxSegments: 200,
+      // public-route rate limits (issue 11): our own choice, common practice, no source
+      addressRequestsPerMinute: 120, pageRequestsPerMinute: 60_000,
     });
     expect(parseSettings(undefined)).toEqual(defaultSettings);
     expect(parseSettings({ halfLifeDays: 3 }).halfLifeDays).toBe(3);

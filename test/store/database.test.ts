@@ -6,6 +6,8 @@
  * pg_try_advisory_lock return false in any other session).
  */
 import { spawn } from "node:child_process";
+import { existsSync, readdirSync, readFileSync, readlinkSync, statSync } from "node:fs";
+import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import pg from "pg";
 import { PrismaPg } from "@prisma/adapter-pg";
@@ -37,13 +39,55 @@ async function settledHandles(target?: string[]): Promise<string[]> {
   return previous;
 }
 
+/** Inodes of the TCP sockets this process is listening on (Linux /proc; proc(5): state 0A = LISTEN). */
+function listeningTcpInodes(): Set<string> {
+  const mine = new Set(readdirSync("/proc/self/fd").map((fd) => {
+    try {
+      return /^socket:\[(\d+)\]$/.exec(readlinkSync(`/proc/self/fd/${fd}`))?.[1];
+    } catch {
+      return undefined;
+    }
+  }).filter((x): x is string => x !== undefined));
+  const listening = ["/proc/net/tcp", "/proc/net/tcp6"].flatMap((file) => existsSync(file) ? readFileSync(file, "utf8").split("\n").slice(1) : [])
+    .map((line) => line.trim().split(/\s+/)).filter((cols) => cols[3] === "0A").map((cols) => cols[9]);
+  return new Set(listening.filter((inode) => mine.has(inode)));
+}
+
+describe("embedded database access (issue 11: PGlite accepts any login, so it must not be reachable by others)", () => {
+  it.skipIf(!existsSync("/proc/self/fd"))("listens on no TCP port, only on an owner-only Unix socket", async () => {
+    const before = listeningTcpInodes();
+    const storage = await embedded.storage();
+    try {
+      const db = await storage.open();
+      try {
+        const after = listeningTcpInodes();
+        expect([...after].filter((inode) => !before.has(inode))).toEqual([]);
+        const folder = new URL(db.url).searchParams.get("host")!;
+        const socket = join(folder, ".s.PGSQL.5432");
+        expect(statSync(socket).isSocket()).toBe(true);
+        expect(statSync(socket).mode & 0o777).toBe(0o600);
+        expect(statSync(folder).mode & 0o777).toBe(0o700);
+        // and the driver reaches the database through it
+        const client = new pg.Client({ connectionString: db.url });
+        await client.connect();
+        expect((await client.query("SELECT 1 AS one")).rows[0].one).toBe(1);
+        await client.end();
+      } finally {
+        await db.close();
+      }
+    } finally {
+      await storage.remove();
+    }
+  });
+});
+
 describe("embedded database", () => {
   it("keeps what was written across close and reopen", async () => {
     const storage = await embedded.storage();
     try {
       const first = await storage.open();
       expect(first.kind).toBe("embedded");
-      expect(new URL(first.url).hostname).toBe("127.0.0.1");
+      expect(new URL(first.url).searchParams.get("host")).toMatch(/^\//); // a Unix socket folder, not a TCP host
       await first.prisma.page.create({ data: pageData("before-close") });
       await first.close();
       const again = await storage.open();

@@ -34,10 +34,16 @@ export async function foldLock(q: Queryable, pageId: number): Promise<void> {
 
 export interface FoldPageRow { id: number; key: string; status: string; settings: Record<string, unknown>; modelVersion: number; lastFoldAt: Date | null }
 
-/** The page's fold bookkeeping; `lock` (inside a transaction) holds the row until commit. */
+/**
+ * The page's fold bookkeeping; `lock` (inside a transaction) holds the row until commit.
+ * FOR NO KEY UPDATE, not FOR UPDATE: it still excludes other writers of the row (folds, edits),
+ * but not the FOR KEY SHARE that the foreign-key checks of new picks and outcomes take on it.
+ * With FOR UPDATE an outcome holding its pick row waited on the page row while the fold holding
+ * the page row waited on the pick: a deadlock (PostgreSQL manual §13.3.2, row-level lock modes).
+ */
 export async function foldPageRow(q: Queryable, pageId: number, lock: boolean): Promise<FoldPageRow | null> {
   const { rows } = await q.query<{ id: number; key: string; status: string; settings: Record<string, unknown>; model_version: number; last_fold_at: Date | null }>(
-    `SELECT id, key, status, settings, model_version, last_fold_at FROM page WHERE id = $1${lock ? " FOR UPDATE" : ""}`, [pageId]);
+    `SELECT id, key, status, settings, model_version, last_fold_at FROM page WHERE id = $1${lock ? " FOR NO KEY UPDATE" : ""}`, [pageId]);
   const r = rows[0];
   return r ? { id: r.id, key: r.key, status: r.status, settings: r.settings, modelVersion: r.model_version, lastFoldAt: r.last_fold_at } : null;
 }
