@@ -11,6 +11,7 @@ import { fail } from "../errors.ts";
 import type { Services } from "../service/index.ts";
 import { requireAdmin, publicCors } from "./auth.ts";
 import { errorHandler } from "./errors.ts";
+import { clientRoutes, snippetRoute } from "./clientRoutes.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -97,7 +98,9 @@ export function createApp(services: Services, options: AppOptions = {}): express
     res.json(await services.pages.patch(key, parse(patchPageSchema, req.body)));
   });
   admin.get("/pages/:key/report", async (req, res) => {
-    res.json(await services.reports.report(pageKey(req)));
+    const key = pageKey(req);
+    // raw context values and what normalisation made of them (src/service/normalizeContext.ts)
+    res.json({ ...(await services.reports.report(key)), contextValues: services.picks.contexts.recent(key) });
   });
   admin.get("/pages/:key/export", async (req, res) => {
     const key = pageKey(req);
@@ -113,11 +116,15 @@ export function createApp(services: Services, options: AppOptions = {}): express
     const { visitors } = parse(demoTrafficSchema, req.body);
     res.status(202).json(await services.demo.start(key, visitors));
   });
+  admin.use(snippetRoute(services));
   app.use("/api/v1", admin);
 
   app.use("/api", (req: Request) => {
     throw fail("NOT_FOUND", { method: req.method, path: req.originalUrl.split("?")[0] });
   });
+
+  // the landing-page client, the demo landing page and its images
+  app.use(clientRoutes(services));
 
   const webDir = options.webDir;
   if (webDir && existsSync(join(webDir, "index.html"))) {
