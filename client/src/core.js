@@ -89,9 +89,13 @@ function openStorage() {
  */
 export function render(document, combination) {
   const marked = document.querySelectorAll("[data-facet]");
-  for (const factor of Object.keys(combination)) {
-    const level = String(combination[factor].level);
-    const value = combination[factor].value == null ? "" : String(combination[factor].value);
+  // read the whole answer first: a malformed one throws here, before anything changed on the page
+  const levels = Object.keys(combination).map((factor) => {
+    const { level, value } = combination[factor];
+    if (level == null) throw factor;
+    return [factor, String(level), value == null ? "" : String(value)];
+  });
+  for (const [factor, level, value] of levels) {
     for (const el of marked) {
       if (el.getAttribute("data-facet") !== factor) continue;
       el.setAttribute("data-facet-level", level);
@@ -110,14 +114,15 @@ export function render(document, combination) {
 /**
  * Starts the client. options: server (facetwise's base URL), page (page key), key (public key),
  * context (names to send), timeout (ms, default 1000), consent (default true), pick (default true;
- * false on pages that only report conversions), fromNavigation (count the timeout from the
- * navigation's start, as the snippet's CSS does). Returns { ready, convert, consent, context }.
+ * false on pages that only report conversions), since (the performance.now() time the timeout
+ * counts from; default now — the classic script passes when its own tag was seen, close to when
+ * the snippet's CSS started hiding). Returns { ready, convert, consent, context }.
  */
 export function start(options) {
   const o = options || {};
   const doc = document;
   const timeout = o.timeout != null && +o.timeout >= 0 ? +o.timeout : 1000;
-  const deadline = (o.fromNavigation ? 0 : performance.now()) + timeout;
+  const deadline = (o.since != null ? +o.since : performance.now()) + timeout;
   const api = String(o.server || "").replace(/\/$/, "") + "/api/v1/pages/" + encodeURIComponent(o.page) + "/";
   const query = "?pageKey=" + encodeURIComponent(o.key || "");
   let store = o.consent === false ? null : openStorage();
