@@ -155,14 +155,10 @@ export function start(options) {
     clearTimeout(timer);
     if (controller && !applied) controller.abort();
     doc.documentElement.classList.add(SHOWN);
-    const detail = { applied, reason, pick };
-    try {
-      doc.dispatchEvent(new CustomEvent("facetwise:ready", { detail }));
-    } catch {
-      // an old browser without CustomEvent: the promise still settles
-    }
-    settle(detail);
+    settle({ applied, reason, pick });
   };
+  // announced after start() returned, so listeners find window.facetwise in place
+  ready.then((detail) => doc.dispatchEvent(new CustomEvent("facetwise:ready", { detail }))).catch(() => undefined);
   const timer = setTimeout(() => finish(false, "timeout"), Math.max(0, deadline - performance.now()));
 
   let queue = [];

@@ -402,6 +402,7 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(snippet).toBe((await api<{ html: string }>("GET", "/pages/bike-repair-demo/snippet")).html);
     // a landing page on the server's own origin, with the snippet pasted as the console shows it
     await page.setContent(`<html><head>${snippet}</head><body><h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a></body></html>`);
+    await page.waitForFunction(() => "facetwise" in window);
     const ready = await page.evaluate(() => (window as unknown as { facetwise: { ready: Promise<{ applied: boolean }> } }).facetwise.ready);
     expect(ready.applied).toBe(true);
     expect(headlines).toContain(await page.textContent("h1"));
