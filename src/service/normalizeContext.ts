@@ -5,7 +5,7 @@
  *
  *  1. numbers and booleans become their text; a missing key or null is "(none)";
  *  2. Unicode NFKC normalisation (compatibility forms: "ﬁ" → "fi", full-width letters → ASCII);
- *  3. case-fold: upper-case then lower-case, which folds "ß" and "ẞ" to "ss" as Unicode's full
+ *  3. case-fold: lower-, upper-, then lower-case, which folds "ß" and "ẞ" to "ss" as Unicode's full
  *     case folding (CaseFolding.txt, status F) does, beyond toLowerCase;
  *  4. every run of whitespace (incl. U+2028/U+2029), control characters, '-' and '_' becomes one '-';
  *  5. '-' at either end is dropped; what is left empty is "(none)".
@@ -17,7 +17,7 @@ export const NONE = "(none)";
 
 export function normalizeContextValue(raw: string | number | boolean | null | undefined): string {
   if (raw === undefined || raw === null) return NONE;
-  const folded = String(raw).normalize("NFKC").toUpperCase().toLowerCase()
+  const folded = String(raw).normalize("NFKC").toLowerCase().toUpperCase().toLowerCase()
     .replace(/[\s\p{Cc}_-]+/gu, "-")
     .replace(/^-+|-+$/g, "");
   return folded === "" ? NONE : folded;
