@@ -369,6 +369,8 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     }
     await expect.poll(() => page.textContent(".snippet code")).toContain("/client/v1.js");
     snippet = (await page.textContent(".snippet code")) ?? "";
+    // the demo traffic's sources, as sent and as normalised
+    await expect.poll(() => page.textContent("section[aria-labelledby=context-title]")).toContain('"search"');
     await shot("export-1280");
   });
 

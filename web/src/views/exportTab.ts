@@ -90,15 +90,28 @@ export function renderExport(page: Page): { element: HTMLElement; refresh(): voi
     ),
   );
 
+  const contexts = h("div", { "aria-live": "off" }, h("p", { class: "hint" }, "Loading…"));
+  element.append(h(
+    "section",
+    { class: "panel", "aria-labelledby": "context-title" },
+    h("h2", { id: "context-title" }, "Context values as segments see them"),
+    h("p", { class: "hint" }, "Values are trimmed, case-folded, and runs of spaces, '-' and '_' become one '-'; an empty value is (none). The last ten distinct values this server saw per segment key, newest first."),
+    contexts,
+  ));
+
   let seq = 0;
   return {
     element,
     async refresh() {
       const mine = ++seq;
       try {
-        const data = await api<ExportJson>("GET", `${path}?format=json`);
+        const [data, report] = await Promise.all([
+          api<ExportJson>("GET", `${path}?format=json`),
+          api<{ contextValues?: Record<string, { raw: string; normalized: string; seen: number }[]> }>("GET", `/pages/${encodeURIComponent(page.key)}/report`),
+        ]);
         if (mine !== seq) return;
         replace(preview, exportTable(data));
+        replace(contexts, contextTable(report.contextValues ?? {}));
       } catch (error) {
         if (mine !== seq) return;
         replace(preview, h("p", { class: "form-error" }, error instanceof ApiError ? error.message : String(error)));
@@ -129,5 +142,21 @@ function exportTable(data: ExportJson): HTMLElement {
           h("td", { class: "num", "data-label": "Rate" }, seg.rate ? pct(seg.rate.mean) : "—"),
         ))),
     ),
+  );
+}
+
+function contextTable(values: Record<string, { raw: string; normalized: string; seen: number }[]>): HTMLElement {
+  const keys = Object.keys(values);
+  if (keys.length === 0) return h("p", { class: "hint" }, "No visitors with context since the server started.");
+  return h(
+    "table",
+    { class: "data stack" },
+    h("thead", null, h("tr", null, h("th", { scope: "col" }, "Segment key"), h("th", { scope: "col" }, "Sent"), h("th", { scope: "col" }, "Becomes"), h("th", { scope: "col", class: "num" }, "Visitors"))),
+    h("tbody", null, keys.flatMap((key) => values[key].map((v) =>
+      h("tr", null,
+        h("th", { scope: "row" }, key),
+        h("td", { "data-label": "Sent" }, h("code", null, JSON.stringify(v.raw))),
+        h("td", { "data-label": "Becomes" }, v.normalized),
+        h("td", { class: "num", "data-label": "Visitors" }, String(v.seen)))))),
   );
 }
