@@ -49,7 +49,8 @@ export function clientRoutes(services: Services): express.Router {
 
   const landing = async (req: Request, res: Response, build: (s: Awaited<ReturnType<typeof pageSnippet>>) => LandingPage, pick: boolean) => {
     if (!services.demoPageKey) throw fail("NOT_FOUND", { method: req.method, path: req.path });
-    const { html, csp } = build(await pageSnippet(services, services.demoPageKey, {}, originOf(req), { pick }));
+    // the snippet's options may be tried in the address: /demo/landing?timeout=300
+    const { html, csp } = build(await pageSnippet(services, services.demoPageKey, req.query, originOf(req), { pick }));
     res.set({ "Content-Type": "text/html; charset=utf-8", "Content-Security-Policy": csp, "Cache-Control": "no-store" }).send(html);
   };
   router.get("/demo/landing", (req, res) => landing(req, res, demoLanding, true));

@@ -502,7 +502,7 @@ describe.runIf(haveChromium)("landing-page client in Chromium", { timeout: 60_00
     const page = await context.newPage();
     await page.exposeFunction("__violation", (d: string) => violations.push(d));
     await page.addInitScript(() => document.addEventListener("securitypolicyviolation", (e) => (window as unknown as { __violation(d: string): void }).__violation(`${e.violatedDirective} ${e.blockedURI}`)));
-    await page.goto(`${fw.url}/demo/landing?utm_source=Search`);
+    await page.goto(`${fw.url}/demo/landing?utm_source=Search&timeout=8000`);
     const state = await ready(page);
     expect(state.applied).toBe(true);
     expect(await page.evaluate(() => (document.querySelector("img") as HTMLImageElement).src)).toMatch(/\/demo\/hero-[a-z-]+\.svg$/);
