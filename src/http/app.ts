@@ -15,6 +15,7 @@ import { errorHandler } from "./errors.ts";
 import { requireDecodablePath, requireUsableText } from "./inputText.ts";
 import { securityHeaders } from "./securityHeaders.ts";
 import { ADMIN_TOKEN_BRAKE, braked, checkPage, TokenBuckets, UNKNOWN_PAGE_BRAKE } from "./rateLimit.ts";
+import { clientRoutes, snippetRoute } from "./clientRoutes.ts";
 import {
   createPageSchema, definitionCheckSchema, demoTrafficSchema, exportQuerySchema, outcomeSchema, pageKeySchema, parse,
   patchPageSchema, pickSchema,
@@ -126,7 +127,9 @@ export function createApp(services: Services, options: AppOptions = {}): express
     res.set("ETag", entityTag(version)).json(result);
   });
   admin.get("/pages/:key/report", async (req, res) => {
-    res.json(await services.reports.report(pageKey(req)));
+    const key = pageKey(req);
+    // raw context values and what normalisation made of them (src/service/normalizeContext.ts)
+    res.json({ ...(await services.reports.report(key)), contextValues: services.picks.contexts.recent(key) });
   });
   admin.get("/pages/:key/export", async (req, res) => {
     const key = pageKey(req);
@@ -142,11 +145,15 @@ export function createApp(services: Services, options: AppOptions = {}): express
     const { visitors } = parse(demoTrafficSchema, req.body);
     res.status(202).json(await services.demo.start(key, visitors));
   });
+  admin.use(snippetRoute(services));
   app.use("/api/v1", admin);
 
   app.use("/api", (req: Request) => {
     throw fail("NOT_FOUND", { method: req.method, path: req.originalUrl.split("?")[0] });
   });
+
+  // the landing-page client, the demo landing page and its images
+  app.use(clientRoutes(services));
 
   const webDir = options.webDir;
   if (webDir && existsSync(join(webDir, "index.html"))) {

@@ -55,7 +55,7 @@ export const pickSchema = z.strictObject({
 export const outcomeSchema = z.strictObject({
   pick: z.uuid(),
   event: z.string().min(1).max(200).optional(),
-  value: z.number().finite().optional(),
+  value: z.number().finite().min(0).optional(),
 });
 
 export const demoTrafficSchema = z.strictObject({
@@ -78,3 +78,10 @@ export function parse<T extends z.ZodType>(schema: T, input: unknown, where = "b
   // a value checked on its own (a route parameter) is named after where it came from
   throw fail("INVALID_REQUEST", { field, reason: reasonOf(issue.path.length ? issue : { ...issue, path: [where] }) }, field);
 }
+
+/** GET /pages/:key/snippet?timeout=&context=&consent= (context repeated or comma-separated). */
+export const snippetQuerySchema = z.object({
+  timeout: z.string().regex(/^\d{1,5}$/, "give whole milliseconds, e.g. 1000").default("1000").transform(Number).pipe(z.number().max(10_000)),
+  context: z.union([z.string(), z.array(z.string())]).transform((v) => (Array.isArray(v) ? v : v.split(",")).map((s) => s.trim()).filter(Boolean)).pipe(z.array(z.string().min(1).max(64)).max(10)).optional(),
+  consent: z.enum(["true", "false"]).default("true").transform((v) => v === "true"),
+});

@@ -28,9 +28,9 @@ export const demoPage: PageInput = {
       { name: "price", value: "Full service from €39. No surprises on the bill." },
     ] },
     { name: "hero", levels: [
-      { name: "mechanic", value: "/demo/hero-mechanic.jpg" },
-      { name: "wheel", value: "/demo/hero-wheel-truing.jpg" },
-      { name: "commuter", value: "/demo/hero-rainy-commuter.jpg" },
+      { name: "mechanic", value: "/demo/hero-mechanic.svg" },
+      { name: "wheel", value: "/demo/hero-wheel-truing.svg" },
+      { name: "commuter", value: "/demo/hero-rainy-commuter.svg" },
     ] },
     { name: "cta", levels: [
       { name: "book", value: "Book a slot" },

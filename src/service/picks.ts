@@ -12,6 +12,8 @@ import type { ServingCache, ServingPage } from "./serving.ts";
 import type { WriteBatcher } from "./writeBatcher.ts";
 import { asServiceError } from "./errors.ts";
 import { checkPublicKey } from "./auth.ts";
+import { normalizeContext } from "./normalizeContext.ts";
+import { ContextLog } from "./contextLog.ts";
 
 export interface PickRequest { visitor: string; context?: Record<string, string | number | boolean> }
 
@@ -28,6 +30,9 @@ export class PickService {
   private readonly rng: Rng = createRng(randomInt(2 ** 31));
   private readonly creating = new Map<string, Promise<number>>();
 
+  /** raw context values and their normalised form, for the report */
+  readonly contexts = new ContextLog();
+
   constructor(private readonly pool: Pool, private readonly serving: ServingCache, private readonly batcher: WriteBatcher) {}
 
   async pick(pageKey: string, publicKey: string | undefined, request: PickRequest): Promise<PickResponse> {
@@ -37,7 +42,8 @@ export class PickService {
       const live = await findLiveAssignment(this.pool, page.stored.id, request.visitor);
       if (live && servable(page.design, live.combination)) return this.respond(page, live, true);
 
-      const segment = segmentOf(page.stored.segmentBy, request.context);
+      this.contexts.record(pageKey, page.stored.segmentBy, request.context);
+      const segment = segmentOf(page.stored.segmentBy, normalizeContext(page.stored.segmentBy, request.context));
       const segmentId = await this.segmentId(page, segment.key, segment.context);
       const served = segmentId === null ? "*" : segment.key;
       const { combination, propensity } = this.choose(page, served);

@@ -10,17 +10,17 @@
  * Without /usr/bin/chromium the suite is skipped with one line saying how to enable it, unless
  * FACETWISE_REQUIRE_BROWSER=1 (set by .ci/run), when it fails instead.
  */
-import { spawn, execFileSync, type ChildProcess } from "node:child_process";
+import { execFileSync } from "node:child_process";
 import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { BrowserContext, Page } from "playwright-core";
+import { root, startServer, type Server } from "./startServer.ts";
 
 const CHROMIUM = "/usr/bin/chromium";
 const haveChromium = existsSync(CHROMIUM);
 const required = process.env.FACETWISE_REQUIRE_BROWSER === "1";
-const root = join(import.meta.dirname, "..", "..");
 const shots = join(root, "test-output");
 
 if (!haveChromium && !required) {
@@ -43,31 +43,6 @@ const XSS_VALUE = `<img src=x onerror="window.__pwned=1">`;
 /** Elements the attempts would create if they were parsed as markup. */
 const injected = (page: Page) => page.evaluate(() => document.querySelectorAll("main img, main b, main script").length);
 const pwned = (page: Page) => page.evaluate(() => (window as unknown as { __pwned?: number }).__pwned);
-
-interface Server { url: string; token: string; child: ChildProcess; dataDir: string }
-
-/** Starts `facetwise start --port 0` and reads the console address and admin token it prints. */
-async function startServer(): Promise<Server> {
-  const dataDir = mkdtempSync(join(tmpdir(), "facetwise-browser-"));
-  const child = spawn(process.execPath, ["--import", "tsx", "src/cli.ts", "start", "--port", "0", "--data", dataDir], {
-    cwd: root,
-    env: { ...process.env, DATABASE_URL: "", FACETWISE_ADMIN_TOKEN: "" },
-    stdio: ["ignore", "pipe", "pipe"],
-  });
-  let out = "";
-  child.stdout?.on("data", (chunk: Buffer) => (out += chunk.toString()));
-  child.stderr?.on("data", (chunk: Buffer) => (out += chunk.toString()));
-  const deadline = Date.now() + 120_000;
-  while (Date.now() < deadline) {
-    const url = /console:\s+(http:\/\/\S+?)\/?\s/.exec(out)?.[1];
-    const token = /admin token[^\n]*\n\s+(\S+)/.exec(out)?.[1];
-    if (url && token && out.includes("Press Ctrl-C")) return { url, token, child, dataDir };
-    if (child.exitCode !== null) break;
-    await new Promise((r) => setTimeout(r, 200));
-  }
-  child.kill("SIGTERM");
-  throw new Error(`facetwise start did not come up:\n${out}`);
-}
 
 /** RFC 4180 (IETF, 2005) section 2: fields split on commas, quoted fields may hold commas and "" quotes, records end in CRLF. */
 function parseCsv(text: string): string[][] {
@@ -147,11 +122,7 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
 
   afterAll(async () => {
     await context?.close();
-    if (server) {
-      server.child.kill("SIGTERM");
-      await new Promise((r) => server.child.once("exit", r));
-      rmSync(server.dataDir, { recursive: true, force: true });
-    }
+    await server?.stop();
     if (profile) rmSync(profile, { recursive: true, force: true });
   }, 30_000);
 
@@ -403,8 +374,10 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
       for (const seg of json.segments) expect(byCsv[seg.segment]).toBe(seg.combination);
       break;
     }
+    await expect.poll(() => page.textContent(".snippet code")).toContain("/client/v1.js");
     snippet = (await page.textContent(".snippet code")) ?? "";
-    expect(snippet).toContain("X-Page-Key");
+    // the demo traffic's sources, as sent and as normalised
+    await expect.poll(() => page.textContent("section[aria-labelledby=context-title]")).toContain('"search"');
     await shot("export-1280");
   });
 
@@ -430,7 +403,7 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     for (const url of visited) expect(url).not.toContain(server.token);
   });
 
-  it("the copied snippet picks on load, renders the level values and reports the conversion", async () => {
+  it("the copied snippet loads the client, which picks on load, renders the level values and reports the conversion", async () => {
     const demo = await api<{ factors: { name: string; levels: { name: string; value?: string }[] }[] }>("GET", "/pages/bike-repair-demo");
     const headlines = demo.factors.find((f) => f.name === "headline")?.levels.map((l) => l.value ?? l.name) ?? [];
     expect(headlines.length).toBeGreaterThan(1);
@@ -438,19 +411,23 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
     expect(cspViolations).toEqual([]);
     const consoleResponse = await page.goto(`${server.url}/`);
     expect(consoleResponse?.headers()["content-security-policy"]).toMatch(/script-src 'self'/);
+    // exactly what the API answers for scripting
+    expect(snippet).toBe((await api<{ html: string }>("GET", "/pages/bike-repair-demo/snippet")).html);
     // a landing page (answered by the browser itself, so without the console's policy) on the
     // server's own origin, with the snippet pasted as the console shows it
     await page.route(`${server.url}/landing-test.html`, (route) => route.fulfill({
       contentType: "text/html",
-      body: `<!doctype html><h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a>${snippet}`,
+      body: `<!doctype html><html><head>${snippet}</head><body><h1 data-facet="headline">Our default headline</h1><a data-facet="cta" href="#">Default</a></body></html>`,
     }));
     await page.goto(`${server.url}/landing-test.html`);
-    await page.waitForFunction(() => document.documentElement.classList.contains("facets-ready"));
+    await page.waitForFunction(() => "facetwise" in window);
+    const ready = await page.evaluate(() => (window as unknown as { facetwise: { ready: Promise<{ applied: boolean }> } }).facetwise.ready);
+    expect(ready.applied).toBe(true);
     expect(headlines).toContain(await page.textContent("h1"));
-    const status = await page.evaluate(async () => {
-      const response = await (window as unknown as { facetwiseConvert(id: string): Promise<Response> }).facetwiseConvert("order-1");
-      return response.status;
-    });
-    expect(status).toBe(202);
+    const [response] = await Promise.all([
+      page.waitForResponse((r) => r.url().includes("/outcomes")),
+      page.evaluate(() => (window as unknown as { facetwise: { convert(c: object): Promise<boolean> } }).facetwise.convert({ event: "order-1" })),
+    ]);
+    expect(response.status()).toBe(202);
   });
 });

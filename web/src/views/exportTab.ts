@@ -1,7 +1,8 @@
 /**
  * Export and integrate: the chosen combination per segment (from the server's JSON export), CSV and
- * JSON downloads fetched with the token in a header, and a ready-to-paste snippet that picks on
- * page load with the page's public key, renders the levels' values and reports the conversion.
+ * JSON downloads fetched with the token in a header, and the integration snippet exactly as
+ * GET /pages/:key/snippet answers it (the server builds and escapes it), with the client's
+ * Subresource-Integrity hash and the Content-Security-Policy sources it needs.
  */
 import { ApiError, api, download } from "../api.ts";
 import { h, replace } from "../dom.ts";
@@ -23,8 +24,10 @@ export function renderExport(page: Page): { element: HTMLElement; refresh(): voi
       downloadNote.textContent = `The download failed: ${(error as Error).message}`;
     }
   };
-  const snippet = integrationSnippet(page, location.origin);
-  const code = h("code", null, snippet);
+  let snippet = "";
+  const code = h("code", null, "Loading the snippet…");
+  const integrity = h("code", null, "…");
+  const csp = h("code", null, "…");
   const copyNote = h("span", { class: "hint", role: "status" });
   const copy = async () => {
     try {
@@ -40,6 +43,18 @@ export function renderExport(page: Page): { element: HTMLElement; refresh(): voi
     }
     announce(copyNote.textContent ?? "");
   };
+  const loadSnippet = async () => {
+    try {
+      const answer = await api<{ html: string; integrity: string; csp: string }>("GET", `/pages/${encodeURIComponent(page.key)}/snippet`);
+      snippet = answer.html;
+      code.textContent = answer.html;
+      integrity.textContent = answer.integrity;
+      csp.textContent = answer.csp;
+    } catch (error) {
+      code.textContent = `The snippet could not be loaded: ${(error as Error).message}`;
+    }
+  };
+  void loadSnippet();
 
   const element = h(
     "div",
@@ -59,16 +74,30 @@ export function renderExport(page: Page): { element: HTMLElement; refresh(): voi
       "section",
       { class: "panel", "aria-labelledby": "snippet-title" },
       h("h2", { id: "snippet-title" }, "Put it on the landing page"),
-      h("p", null, "Paste this into the landing page. On load it asks facetwise which combination to show this visitor, writes each level's value into the elements marked ",
-        h("code", null, "data-facet=\"factor name\""), ", and ", h("code", null, "facetwiseConvert()"), " reports the conversion."),
+      h("p", null, "Paste these two lines into the landing page's ", h("code", null, "<head>"), ". They load the facetwise client, which asks which combination to show this visitor and writes each level into the elements marked ",
+        h("code", null, "data-facet=\"factor name\""), ". Report a conversion with ", h("code", null, "facetwise.convert({ event: \"order-123\", value: 49.9 })"), "."),
       h("ul", { class: "hint" },
-        h("li", null, "Text goes in as text. For an image or a colour, add ", h("code", null, "data-facet-attr=\"src\""), " or ", h("code", null, "data-facet-style=\"background-color\""), "."),
-        h("li", null, "The visitor id is a random id kept in the browser, never a name or e-mail address."),
+        h("li", null, "Text goes in as text. For an image or a colour, add ", h("code", null, "data-facet-attr=\"src\""), " or ", h("code", null, "data-facet-style=\"background-color\""), ". A level without a value only sets ", h("code", null, "data-facet-level"), " and a class; the element's content stays."),
+        h("li", null, "Marked elements wait at most 1 second (", h("code", null, "data-timeout"), "); then the page's own content shows, whatever happened."),
+        h("li", null, "Context sent: the page's segment keys (", h("code", null, "data-context"), "). Add ", h("code", null, "device"), ", ", h("code", null, "referrer"), " or any address parameter such as ", h("code", null, "utm_campaign"), "."),
+        h("li", null, "The visitor id is a random id kept in the browser, never a name or e-mail address; ", h("code", null, "data-consent=\"false\""), " keeps nothing until ", h("code", null, "facetwise.consent(true)"), "."),
         h("li", null, "The public key can only pick and report conversions; it cannot read results.")),
       h("div", { class: "snippet" }, h("pre", { tabindex: "0", "aria-label": "Integration snippet" }, code)),
       h("div", { class: "actions" }, h("button", { type: "button", onclick: copy }, "Copy snippet"), copyNote),
+      h("dl", { class: "integrity" },
+        h("dt", null, "Subresource Integrity of the client (already in the snippet)"), h("dd", null, integrity),
+        h("dt", null, "Content-Security-Policy sources the snippet needs"), h("dd", null, csp)),
     ),
   );
+
+  const contexts = h("div", { "aria-live": "off" }, h("p", { class: "hint" }, "Loading…"));
+  element.append(h(
+    "section",
+    { class: "panel", "aria-labelledby": "context-title" },
+    h("h2", { id: "context-title" }, "Context values as segments see them"),
+    h("p", { class: "hint" }, "Values are trimmed, case-folded, and runs of spaces, '-' and '_' become one '-'; an empty value is (none). The last ten distinct values this server saw per segment key, newest first."),
+    contexts,
+  ));
 
   let seq = 0;
   return {
@@ -76,9 +105,13 @@ export function renderExport(page: Page): { element: HTMLElement; refresh(): voi
     async refresh() {
       const mine = ++seq;
       try {
-        const data = await api<ExportJson>("GET", `${path}?format=json`);
+        const [data, report] = await Promise.all([
+          api<ExportJson>("GET", `${path}?format=json`),
+          api<{ contextValues?: Record<string, { raw: string; normalized: string; seen: number }[]> }>("GET", `/pages/${encodeURIComponent(page.key)}/report`),
+        ]);
         if (mine !== seq) return;
         replace(preview, exportTable(data));
+        replace(contexts, contextTable(report.contextValues ?? {}));
       } catch (error) {
         if (mine !== seq) return;
         replace(preview, h("p", { class: "form-error" }, error instanceof ApiError ? error.message : String(error)));
@@ -112,53 +145,18 @@ function exportTable(data: ExportJson): HTMLElement {
   );
 }
 
-/** Embeds a string in the snippet's script as a JS literal that cannot close the <script> tag. */
-function literal(value: unknown): string {
-  return JSON.stringify(value).replace(/</g, "\\u003c").replace(/\u2028/g, "\\u2028").replace(/\u2029/g, "\\u2029");
-}
-
-/** The integration snippet for this page. Exported for the browser suite's check of its contents. */
-export function integrationSnippet(page: Page, origin: string): string {
-  const factors = page.factors.map((f) => f.name.replace(/[\r\n]/g, " ")).join(", ");
-  return `<style>html:not(.facets-ready) [data-facet] { visibility: hidden; }</style>
-<script>
-(() => {
-  const server = ${literal(`${origin}/api/v1/pages/${encodeURIComponent(page.key)}`)};
-  const headers = { "Content-Type": "application/json", "X-Page-Key": ${literal(page.publicKey)} };
-  const segmentKeys = ${literal(page.segmentBy)}; // read from the address: ?source=… or ?utm_source=…
-  // Factors on this page: ${factors.replace(/</g, "‹")}
-
-  let visitor = localStorage.getItem("facetwise-visitor");
-  if (!visitor) {
-    visitor = crypto.randomUUID();
-    localStorage.setItem("facetwise-visitor", visitor);
-  }
-  const params = new URLSearchParams(location.search);
-  const context = {};
-  for (const key of segmentKeys) {
-    const value = params.get(key) ?? params.get("utm_" + key);
-    if (value) context[key] = value;
-  }
-
-  const picked = fetch(server + "/picks", { method: "POST", headers, body: JSON.stringify({ visitor, context }) })
-    .then((response) => (response.ok ? response.json() : Promise.reject(new Error("pick " + response.status))))
-    .then((pick) => {
-      for (const [factor, level] of Object.entries(pick.combination)) {
-        const value = level.value ?? level.level;
-        for (const el of document.querySelectorAll('[data-facet="' + CSS.escape(factor) + '"]')) {
-          if (el.dataset.facetAttr) el.setAttribute(el.dataset.facetAttr, value);
-          else if (el.dataset.facetStyle) el.style.setProperty(el.dataset.facetStyle, value);
-          else el.textContent = value;
-        }
-      }
-      return pick;
-    })
-    .finally(() => document.documentElement.classList.add("facets-ready")); // on failure the page's own content shows
-
-  // Call when the visitor converts; pass your order or sign-up id so a repeat is counted once.
-  window.facetwiseConvert = (eventId) =>
-    picked.then((pick) =>
-      fetch(server + "/outcomes", { method: "POST", headers, body: JSON.stringify({ pick: pick.pick, event: eventId }) }));
-})();
-</script>`;
+function contextTable(values: Record<string, { raw: string; normalized: string; seen: number }[]>): HTMLElement {
+  const keys = Object.keys(values);
+  if (keys.length === 0) return h("p", { class: "hint" }, "No visitors with context since the server started.");
+  return h(
+    "table",
+    { class: "data stack" },
+    h("thead", null, h("tr", null, h("th", { scope: "col" }, "Segment key"), h("th", { scope: "col" }, "Sent"), h("th", { scope: "col" }, "Becomes"), h("th", { scope: "col", class: "num" }, "Visitors"))),
+    h("tbody", null, keys.flatMap((key) => values[key].map((v) =>
+      h("tr", null,
+        h("th", { scope: "row" }, key),
+        h("td", { "data-label": "Sent" }, h("code", null, JSON.stringify(v.raw))),
+        h("td", { "data-label": "Becomes" }, v.normalized),
+        h("td", { class: "num", "data-label": "Visitors" }, String(v.seen)))))),
+  );
 }
