@@ -23,7 +23,7 @@ export { deserializeState, initialState, serializeState, type ModelState } from 
 export { featureMapping, remapState } from "./remap.ts";
 export type { FoldRow } from "./fold.ts";
 export { foldCycle, foldState, POOLED, type FoldCycleInput, type FoldCycleOutput } from "./foldCycle.ts";
-export { pickFrom, propensityOf, type Allocation } from "./allocation.ts";
+export { pickFrom, predictedOf, propensityOf, type Allocation } from "./allocation.ts";
 export { combinationRates } from "./combinationRates.ts";
 export { quantileInPlace } from "./quantile.ts";
 export type { RetiredEntry } from "./retirement.ts";
