@@ -40,3 +40,39 @@ export async function allocationHistory(q: Queryable, pageId: number, points: nu
      WHERE a.page_id = $1 ORDER BY a.version, a.segment`, [pageId, points]);
   return rows.map((r) => ({ version: r.version, segment: r.segment, allocation: r.allocation, at: r.created_at }));
 }
+
+export interface CalibrationBinRow {
+  /** segment key, "*" for picks served as new traffic; null for the pooled bins over all picks */
+  segment: string | null;
+  bin: number;
+  picks: number; conversions: number;
+  sumPredicted: number; minPredicted: number; maxPredicted: number;
+  logLoss: number; squaredError: number;
+}
+
+/**
+ * Equal-count bins of the picks that can be scored — attribution window closed, prediction stored,
+ * not set aside — per segment and pooled (segment null), with the totals calibration.ts needs.
+ * The pick of rank r among n (by predicted rate, then id) goes to bin ⌊r·B/n⌋ with
+ * B = max(1, min(maxBins, ⌊n/perBin⌋)) (the rule of src/model/calibration.ts). A conversion
+ * counts when it was reported inside the window (converted_at is only set then).
+ */
+export async function calibrationBins(q: Queryable, pageId: number, maxBins: number, perBin: number): Promise<CalibrationBinRow[]> {
+  const { rows } = await q.query<CalibrationBinRow>(
+    `WITH scored AS (
+       SELECT p.id, coalesce(s.key, '*') AS segment, p.predicted_rate AS p, (p.converted_at IS NOT NULL) AS y
+       FROM pick p LEFT JOIN segment s ON s.id = p.segment_id
+       WHERE p.page_id = $1 AND p.predicted_rate IS NOT NULL AND p.state <> 'ignored' AND p.window_ends_at < now()),
+     grouped AS (
+       SELECT g.segment, scored.p, scored.y,
+         row_number() OVER w - 1 AS rank, count(*) OVER (PARTITION BY g.segment) AS n
+       FROM scored CROSS JOIN LATERAL (VALUES (scored.segment), (NULL)) AS g(segment)
+       WINDOW w AS (PARTITION BY g.segment ORDER BY scored.p, scored.id))
+     SELECT segment, ((rank * greatest(1, least($2::bigint, n / $3::bigint))) / n)::int AS bin,
+       count(*)::int AS picks, (count(*) FILTER (WHERE y))::int AS conversions,
+       sum(p) AS "sumPredicted", min(p) AS "minPredicted", max(p) AS "maxPredicted",
+       sum(CASE WHEN y THEN -ln(p) ELSE -ln(1 - p) END) AS "logLoss",
+       sum(CASE WHEN y THEN (1 - p) ^ 2 ELSE p ^ 2 END) AS "squaredError"
+     FROM grouped GROUP BY 1, 2 ORDER BY 1, 2`, [pageId, maxBins, perBin]);
+  return rows;
+}
