@@ -12,12 +12,12 @@
  * the test). Unlike the draws' mean in summary.ts it carries no Monte Carlo error.
  *
  * `predictedRates` evaluates many combinations of one posterior: with more combinations than
- * coefficients it forms the covariance P⁻¹ once (O(d³)) and reads each variance xᵀP⁻¹x off its
+ * coefficients it forms the covariance P⁻¹ once (d³/3, linalg.ts) and reads each variance xᵀP⁻¹x off its
  * active entries (O(k²) for k active features); otherwise one forward solve each (O(d²)).
  */
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
-import { choleskyInverse } from "./linalg.ts";
+import { covarianceFromCholesky } from "./linalg.ts";
 import { linearPredictor } from "./linearPredictor.ts";
 import { sigmoid } from "./logistic.ts";
 
@@ -84,16 +84,22 @@ export function predictedRates(design: Design, posterior: Gaussian, combos: Comb
     });
     return out;
   }
-  const covariance = choleskyInverse(posterior.chol, d);
+  const covariance = covarianceFromCholesky(posterior.chol, d);
+  const present = new Int32Array(k);
   combos.forEach((c, i) => {
     writeActiveFeatures(design, c, active, 0);
+    let count = 0;
     let mean = 0;
-    let variance = 0;
     for (let x = 0; x < k; x++) {
-      const r = active[x];
-      if (r === d) continue;
-      mean += posterior.mean[r];
-      for (let y = 0; y < k; y++) if (active[y] !== d) variance += covariance[r * d + active[y]];
+      if (active[x] === d) continue;
+      present[count++] = active[x];
+      mean += posterior.mean[active[x]];
+    }
+    let variance = 0;
+    for (let x = 0; x < count; x++) {
+      const row = present[x] * d;
+      variance += covariance[row + present[x]];
+      for (let y = x + 1; y < count; y++) variance += 2 * covariance[row + present[y]];
     }
     out[i] = meanRate(mean, Math.sqrt(Math.max(0, variance)));
   });
