@@ -64,10 +64,11 @@ export function formatTable(
 function coverageLines(coverage: { overall: Coverage | null; small: Coverage | null }): string[] {
   const figure = (c: Coverage | null): string =>
     c === null ? "— (none)" : `${pct(c.share)} (${pct(c.lower)}–${pct(c.upper)}) of ${int(c.total)}`;
+  const small = `segments with ≤ ${pct(SMALL_SHARE)} of traffic`;
   return [
     "",
     "Final 95% rate intervals of the engine that contain the true rate (nominal 95%; 95% binomial interval):",
-    `  all segments                    ${figure(coverage.overall)}`,
-    `  segments with ≤ ${pct(SMALL_SHARE)} of traffic  ${figure(coverage.small)}`,
+    `  ${"all segments".padEnd(small.length)}  ${figure(coverage.overall)}`,
+    `  ${small}  ${figure(coverage.small)}`,
   ];
 }
