@@ -7,9 +7,11 @@
  * fitted on is not calibration and is not reported.
  *
  * From per-bin totals (the report forms them in SQL) it computes:
- * - bins of equal pick counts by predicted rate: picks of rank r = 0…n−1 in order of prediction
- *   (ties by pick id) go to bin ⌊r·B/n⌋, B = max(1, min(MAX_BINS, ⌊n/PICKS_PER_BIN⌋)), so every
- *   bin holds ⌊n/B⌋ or ⌈n/B⌉ picks (repositories/reports.ts `calibrationBins` forms them);
+ * - bins of equal pick counts by predicted rate, up to ties: of the n most recent scored picks
+ *   (at most LATEST_PICKS), all picks with one predicted value go to bin ⌊s·B/n⌋, s the number of
+ *   picks predicted lower, B = max(1, min(MAX_BINS, ⌊n/PICKS_PER_BIN⌋)) — without ties every bin
+ *   holds ⌊n/B⌋ or ⌈n/B⌉ picks; a tie is never split, so the bins do not depend on row order
+ *   (repositories/reports.ts `calibrationBins` forms them);
  *   per bin the mean prediction, the observed rate and its 95% Wilson score interval
  *   (E. B. Wilson, "Probable inference, the law of succession, and statistical inference",
  *   JASA 22, 1927, 209–212), which keeps sensible bounds at 0 or few conversions;
@@ -32,6 +34,8 @@ export const MIN_PICKS = 200;
 export const MIN_CONVERSIONS = 10;
 export const MAX_BINS = 10;
 export const PICKS_PER_BIN = 100;
+/** Only the most recent scored picks are binned: the model changes, and the report's cost stays bounded. */
+export const LATEST_PICKS = 100_000;
 
 const Z975 = normalQuantile(0.975);
 

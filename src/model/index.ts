@@ -38,4 +38,4 @@ export { twoProportionZTest, type ZTestResult } from "./twoProportionZTest.ts";
 export { liftInterval, type LiftEstimate, type LiftInterval } from "./liftInterval.ts";
 export { crossCheck, ADAPTIVE_ALLOCATION_WARNING, type Arm, type CrossCheck } from "./crossCheck.ts";
 export { sampleSizeTwoProportions, type SampleSizeInput } from "./sampleSizeTwoProportions.ts";
-export { calibration, MAX_BINS, PICKS_PER_BIN, wilsonInterval, type BinTotals, type Calibration, type CalibrationBin } from "./calibration.ts";
+export { calibration, LATEST_PICKS, MAX_BINS, PICKS_PER_BIN, wilsonInterval, type BinTotals, type Calibration, type CalibrationBin } from "./calibration.ts";

@@ -8,7 +8,7 @@
  * Shape: the contract's "Report JSON shape".
  */
 import type { Pool } from "pg";
-import { calibration, crossCheck, MAX_BINS, PICKS_PER_BIN } from "../model/index.ts";
+import { calibration, crossCheck, LATEST_PICKS, MAX_BINS, PICKS_PER_BIN } from "../model/index.ts";
 import type { Allocation, CombinationSummary, SegmentSummary } from "../model/index.ts";
 import { loadRetired, loadSnapshot } from "../store/repositories/folds.ts";
 import { allocationHistory, calibrationBins, pickCounts, segmentContexts, type CountRow } from "../store/repositories/reports.ts";
@@ -63,7 +63,7 @@ export class ReportService {
       const contexts = await segmentContexts(this.pool, page.id);
       const retired = await loadRetired(this.pool, page.id);
       const history = await allocationHistory(this.pool, page.id, HISTORY_POINTS);
-      const bins = await calibrationBins(this.pool, page.id, MAX_BINS, PICKS_PER_BIN);
+      const bins = await calibrationBins(this.pool, page.id, { maxBins: MAX_BINS, perBin: PICKS_PER_BIN, latest: LATEST_PICKS });
       const current = new Map(history.filter((h) => h.version === page.modelVersion).map((h) => [h.segment, h.allocation as Allocation]));
 
       const segmentKeys = [...new Set([...contexts.keys(), ...counts.map((c) => c.segment).filter((s) => s !== "*")])];

@@ -51,28 +51,44 @@ export interface CalibrationBinRow {
 }
 
 /**
- * Equal-count bins of the picks that can be scored — attribution window closed, prediction stored,
- * not set aside — per segment and pooled (segment null), with the totals calibration.ts needs.
- * The pick of rank r among n (by predicted rate, then id) goes to bin ⌊r·B/n⌋ with
- * B = max(1, min(maxBins, ⌊n/perBin⌋)) (the rule of src/model/calibration.ts). A conversion
- * counts when it was reported inside the window (converted_at is only set then).
+ * Bins of the most recent `latest` picks that can be scored — attribution window closed,
+ * prediction stored, not set aside — per segment and pooled (segment null), with the totals
+ * calibration.ts needs. Picks are first counted per distinct prediction (one per combination,
+ * segment and fold), then a prediction whose lower-predicted picks number s of n goes, with all
+ * its picks, to bin ⌊s·B/n⌋, B = max(1, min(maxBins, ⌊n/perBin⌋)): equal counts up to ties (the
+ * rule of src/model/calibration.ts). A conversion counts when it was reported inside the window
+ * (converted_at is only set then). Segments are grouped by id and named at the end, so every sort
+ * is on numbers.
  */
-export async function calibrationBins(q: Queryable, pageId: number, maxBins: number, perBin: number): Promise<CalibrationBinRow[]> {
+export async function calibrationBins(
+  q: Queryable, pageId: number, options: { maxBins: number; perBin: number; latest: number },
+): Promise<CalibrationBinRow[]> {
   const { rows } = await q.query<CalibrationBinRow>(
-    `WITH scored AS (
-       SELECT p.id, coalesce(s.key, '*') AS segment, p.predicted_rate AS p, (p.converted_at IS NOT NULL) AS y
-       FROM pick p LEFT JOIN segment s ON s.id = p.segment_id
-       WHERE p.page_id = $1 AND p.predicted_rate IS NOT NULL AND p.state <> 'ignored' AND p.window_ends_at < now()),
+    `WITH recent AS (
+       SELECT segment_id, predicted_rate AS p, converted_at FROM pick
+       WHERE page_id = $1 AND predicted_rate IS NOT NULL AND state <> 'ignored' AND window_ends_at < now()
+       ORDER BY window_ends_at DESC, id DESC LIMIT $4),
+     tied AS (
+       SELECT segment_id, p, count(*)::int AS n, count(converted_at)::int AS k FROM recent GROUP BY 1, 2),
      grouped AS (
-       SELECT g.segment, scored.p, scored.y,
-         row_number() OVER w - 1 AS rank, count(*) OVER (PARTITION BY g.segment) AS n
-       FROM scored CROSS JOIN LATERAL (VALUES (scored.segment), (NULL)) AS g(segment)
-       WINDOW w AS (PARTITION BY g.segment ORDER BY scored.p, scored.id))
-     SELECT segment, ((rank * greatest(1, least($2::bigint, n / $3::bigint))) / n)::int AS bin,
-       count(*)::int AS picks, (count(*) FILTER (WHERE y))::int AS conversions,
-       sum(p) AS "sumPredicted", min(p) AS "minPredicted", max(p) AS "maxPredicted",
-       sum(CASE WHEN y THEN -ln(p) ELSE -ln(1 - p) END) AS "logLoss",
-       sum(CASE WHEN y THEN (1 - p) ^ 2 ELSE p ^ 2 END) AS "squaredError"
-     FROM grouped GROUP BY 1, 2 ORDER BY 1, 2`, [pageId, maxBins, perBin]);
+       SELECT false AS pooled, segment_id, p, n, k FROM tied
+       UNION ALL
+       SELECT true, NULL, p, sum(n)::int, sum(k)::int FROM tied GROUP BY p),
+     ranked AS (
+       SELECT pooled, segment_id, p, n, k,
+         sum(n) OVER (PARTITION BY pooled, segment_id ORDER BY p ROWS UNBOUNDED PRECEDING)::bigint - n AS below,
+         sum(n) OVER (PARTITION BY pooled, segment_id)::bigint AS total
+       FROM grouped),
+     binned AS (
+       SELECT pooled, segment_id, (below * greatest(1, least($2::bigint, total / $3::bigint)) / total)::int AS bin,
+         sum(n)::int AS picks, sum(k)::int AS conversions,
+         sum(n * p) AS "sumPredicted", min(p) AS "minPredicted", max(p) AS "maxPredicted",
+         sum(-k * ln(p) - (n - k) * ln(1 - p)) AS "logLoss",
+         sum(k * (1 - p) ^ 2 + (n - k) * p ^ 2) AS "squaredError"
+       FROM ranked GROUP BY 1, 2, 3)
+     SELECT CASE WHEN b.pooled THEN NULL ELSE coalesce(s.key, '*') END AS segment, b.bin, b.picks, b.conversions,
+       b."sumPredicted", b."minPredicted", b."maxPredicted", b."logLoss", b."squaredError"
+     FROM binned b LEFT JOIN segment s ON s.id = b.segment_id
+     ORDER BY b.pooled, b.segment_id, b.bin`, [pageId, options.maxBins, options.perBin, options.latest]);
   return rows;
 }
