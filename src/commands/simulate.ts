@@ -16,7 +16,8 @@ import type { MaturityRule } from "../sim/maturity.ts";
 import { progressBar } from "../sim/progressBar.ts";
 import { formatTable } from "../sim/reportTable.ts";
 import { setup } from "../sim/setup.ts";
-import { settledShare, summarize } from "../sim/summarize.ts";
+import { intervalCoverage } from "../sim/intervalCoverage.ts";
+import { intervalRows, settledShare, summarize } from "../sim/summarize.ts";
 
 export const summary = "compare the engine with a split test and independent bandits on a scenario";
 
@@ -32,6 +33,9 @@ Options:
   --visitors N     visitors per run (default: the scenario's, else 200000)
   --seed S         seed; the same seed gives the same report (default 1)
   --json           print exactly one JSON object (no table, no progress bar)
+  --intervals      add "intervals" to the JSON report: for every run, segment and allowed combination,
+                   the engine's final 95% rate interval and the true rate,
+                   {run, segment, share, combination, truth, mean, lower, upper} (with --json or --out)
   --out DIR        also write DIR/report.json, DIR/regret.svg and DIR/best-share.svg
   --threads T      worker threads (default: the machine's cores)
   --maturity M     "server" (default): as the server folds, each pick at once as a trial and its
@@ -45,6 +49,7 @@ export async function run(argv: string[]): Promise<number> {
         visitors: { type: "string" },
         seed: { type: "string" },
         json: { type: "boolean" },
+        intervals: { type: "boolean" },
         out: { type: "string" },
         threads: { type: "string" },
         maturity: { type: "string" },
@@ -56,6 +61,9 @@ export async function run(argv: string[]): Promise<number> {
   const maturity = values.maturity ?? "server";
   if (maturity !== "server" && maturity !== "window") {
     throw fail("INVALID_OPTION", { option: "--maturity", reason: `expected "server" or "window", got "${maturity}"` });
+  }
+  if (values.intervals && !values.json && values.out === undefined) {
+    throw fail("INVALID_OPTION", { option: "--intervals", reason: "adds to the JSON report: use it with --json or --out" });
   }
   const scenario = loadScenario(positionals[0]!);
   const runs = numberFlag("runs", values.runs, scenario.runs, { min: 1, max: 10_000, integer: true });
@@ -82,11 +90,15 @@ export async function run(argv: string[]): Promise<number> {
     threads,
     maturity: maturity as MaturityRule,
     points: 50,
+    // the table prints the intervals' coverage; the JSON carries them only when asked
+    intervals: !values.json || values.intervals === true,
     onProgress: (done) => bar.update(done),
   });
   bar.finish();
   const seconds = (performance.now() - started) / 1000;
-  const report = summarize({ scenario: scenario.name, visitors, seed, mde: scenario.mde, fixedHorizon: horizon }, results);
+  const summarized = summarize({ scenario: scenario.name, visitors, seed, mde: scenario.mde, fixedHorizon: horizon }, results);
+  const rows = intervalRows(results, scenario.segments, prepared.keys);
+  const report = values.intervals ? { ...summarized, intervals: rows } : summarized;
 
   if (values.out !== undefined) {
     mkdirSync(values.out, { recursive: true });
@@ -105,6 +117,7 @@ export async function run(argv: string[]): Promise<number> {
         combinations: prepared.keys.length,
         seconds,
         settledShare: settledShare(results, "facetwise"),
+        coverage: intervalCoverage(rows),
       }),
     );
     if (values.out !== undefined) console.log(`\nWrote ${join(values.out, "report.json")}, regret.svg and best-share.svg`);

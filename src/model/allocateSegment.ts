@@ -19,6 +19,7 @@ import { combinationKey } from "./combinationKey.ts";
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
 import { linearPredictor } from "./linearPredictor.ts";
+import { predictedRates } from "./predictedRate.ts";
 import { updateRetirement, type RetiredEntry } from "./retirement.ts";
 import type { Rng } from "./rng.ts";
 import { drawSamples, temperDraws } from "./sampling.ts";
@@ -64,6 +65,7 @@ interface Candidates {
 /** What the allocation serves: the Thompson share of each candidate over tempered draws, and which are eligible. */
 interface Served {
   keys: string[];
+  combos: Combination[];
   thompson: Float64Array;
   eligible: Uint8Array;
 }
@@ -136,7 +138,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
       for (const key of reinstated.keys()) eligible[table.indexOfKey.get(key)!] = 1;
       scan = scanEnumerated(table, samples, M, eligible, tempering);
     }
-    served = { keys: table.keys, thompson: scan.countEligible.map((x) => x / M), eligible };
+    served = { keys: table.keys, combos: table.combos, thompson: scan.countEligible.map((x) => x / M), eligible };
   } else {
     // Retirement needs every combination's bounds, so it applies to listed spaces only.
     const scan = scanByClimbing(design, samples, M, meanTheta, rng);
@@ -154,6 +156,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     const tempered = alpha === 1 ? scan : scanByClimbing(design, temperDraws(samples, meanTheta, d, M, alpha), M, meanTheta, rng);
     served = {
       keys: tempered.winners.map((w) => w.key),
+      combos: tempered.winners.map((w) => w.combination),
       thompson: Float64Array.from(tempered.winners, (w) => w.count / M),
       eligible: new Uint8Array(tempered.winners.length).fill(1),
     };
@@ -184,15 +187,19 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     segmentSpread: input.segmentSpread,
   };
 
-  if (summary.status === "settled") served = onLeader(served, leader.combination);
+  if (summary.status === "settled") served = onLeader(served, leader.combination, leaderCombo);
+  // Each pick stores the predicted rate of what it served (prequential calibration, calibration.ts).
+  const predictedOf = (c: Combination) => predictedRates(design, posterior, [c])[0];
   const allocation = input.frozen
-    ? frozenAllocation(segment, leader.combination)
+    ? frozenAllocation(segment, leader.combination, predictedOf(leaderCombo))
     : mixAllocation({
         segment,
         keys: served.keys,
+        predicted: predictedRates(design, posterior, served.combos),
         thompson: served.thompson,
         eligible: served.eligible,
         baselineKey,
+        baselinePredicted: predictedOf(design.baseline),
         baselineShare: settings.baselineShare,
         explorationFloor: settings.explorationFloor,
         space: design.enumerable
@@ -203,11 +210,12 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
 }
 
 /** The Thompson part moved onto the leader alone (a settled segment keeps only the floor and the baseline share besides). */
-function onLeader(served: Served, leader: string): Served {
+function onLeader(served: Served, leader: string, leaderCombo: Combination): Served {
   const at = served.keys.indexOf(leader);
   if (at >= 0) return { ...served, thompson: Float64Array.from(served.keys, (_, i) => (i === at ? 1 : 0)) };
   return {
     keys: [...served.keys, leader],
+    combos: [...served.combos, leaderCombo],
     thompson: Float64Array.from({ length: served.keys.length + 1 }, (_, i) => (i === served.keys.length ? 1 : 0)),
     eligible: Uint8Array.from([...served.eligible, 1]),
   };

@@ -13,6 +13,10 @@
  * alias-table lookup. For larger sets U is drawn by rejection sampling over the factor levels
  * (never tabulated), with probability mass (1−b)·e; listed entries then hold b·[baseline] +
  * (1−b)(1−e)·TS(c) for the alias draw plus their uniform share in `propensities`.
+ *
+ * Each listed combination also carries its predicted rate (predictedRate.ts), so a pick stores
+ * the forecast it was served with at O(1) cost (prequential calibration, calibration.ts). A
+ * combination drawn from the unlisted uniform part has none (null).
  */
 import { matchesNoRule, type Rule } from "./allowed.ts";
 import { aliasDraw, buildAliasTable } from "./alias.ts";
@@ -33,6 +37,8 @@ export interface Allocation {
   /** Listed combinations and their exact propensities π(c). */
   keys: string[];
   propensities: number[];
+  /** Predicted rate E[σ(xᵀθ)] of each listed combination; absent in allocations stored before it was kept. */
+  predicted?: number[];
   /** Alias table over the listed mass (excluding `uniform.mass`). */
   aliasProbability: number[];
   aliasIndex: number[];
@@ -43,11 +49,14 @@ export interface MixtureInput {
   segment: string;
   /** Candidate combinations (all allowed when listed; Thompson winners plus baseline otherwise). */
   keys: string[];
+  /** Predicted rate of each candidate. */
+  predicted: ArrayLike<number>;
   /** Thompson probability of each candidate (sums to 1 over candidates). */
   thompson: ArrayLike<number>;
   /** Whether each candidate is eligible (allowed and not retired). */
   eligible: ArrayLike<number>;
   baselineKey: string;
+  baselinePredicted: number;
   baselineShare: number;
   explorationFloor: number;
   /** Present when the allowed set is too large to list: U is drawn by rejection. */
@@ -59,8 +68,10 @@ export function mixAllocation(input: MixtureInput): Allocation {
   const n = keys.length;
   let baselineIndex = keys.indexOf(input.baselineKey);
   const listKeys = keys.slice();
+  const listPredicted = Array.from(input.predicted);
   if (baselineIndex < 0) {
     listKeys.push(input.baselineKey);
+    listPredicted.push(input.baselinePredicted);
     baselineIndex = n;
   }
   const explicit = new Array<number>(listKeys.length).fill(0);
@@ -93,6 +104,7 @@ export function mixAllocation(input: MixtureInput): Allocation {
     frozen: false,
     keys: keep.map((i) => listKeys[i]),
     propensities: keep.map((i) => propensities[i]),
+    predicted: keep.map((i) => listPredicted[i]),
     aliasProbability: table.probability,
     aliasIndex: table.alias,
     uniform,
@@ -100,8 +112,8 @@ export function mixAllocation(input: MixtureInput): Allocation {
 }
 
 /** A frozen allocation: always the given combination. */
-export function frozenAllocation(segment: string, key: string): Allocation {
-  return { segment, frozen: true, keys: [key], propensities: [1], aliasProbability: [1], aliasIndex: [0], uniform: null };
+export function frozenAllocation(segment: string, key: string, predicted: number): Allocation {
+  return { segment, frozen: true, keys: [key], propensities: [1], predicted: [predicted], aliasProbability: [1], aliasIndex: [0], uniform: null };
 }
 
 interface Lookup {
@@ -124,24 +136,33 @@ function lookup(allocation: Allocation): Lookup {
   return found;
 }
 
+export interface Drawn {
+  combination: string;
+  propensity: number;
+  /** Its predicted rate; null when it was drawn from the unlisted uniform part or the allocation predates predictions. */
+  predicted: number | null;
+}
+
+const drawn = (allocation: Allocation, i: number): Drawn =>
+  ({ combination: allocation.keys[i], propensity: allocation.propensities[i], predicted: allocation.predicted?.[i] ?? null });
+
 /** One pick: O(1) expected; the propensity is the exact probability of the returned combination. */
-export function pickFrom(allocation: Allocation, rng: Rng): { combination: string; propensity: number } {
+export function pickFrom(allocation: Allocation, rng: Rng): Drawn {
   const uniform = allocation.uniform;
   if (uniform !== null && uniform.mass > 0) {
     const u = rng.next();
     if (u < uniform.mass) return pickUniform(allocation, uniform, rng);
     // Reuse the same uniform for the alias draw, rescaled to [0,1).
     const i = aliasDraw({ probability: allocation.aliasProbability, alias: allocation.aliasIndex }, (u - uniform.mass) / (1 - uniform.mass));
-    return { combination: allocation.keys[i], propensity: allocation.propensities[i] };
+    return drawn(allocation, i);
   }
   const p = allocation.aliasProbability;
   const x = rng.next() * p.length;
   const j = Math.floor(x);
-  const i = x - j < p[j] ? j : allocation.aliasIndex[j];
-  return { combination: allocation.keys[i], propensity: allocation.propensities[i] };
+  return drawn(allocation, x - j < p[j] ? j : allocation.aliasIndex[j]);
 }
 
-function pickUniform(allocation: Allocation, uniform: UniformPart, rng: Rng): { combination: string; propensity: number } {
+function pickUniform(allocation: Allocation, uniform: UniformPart, rng: Rng): Drawn {
   const { retired, index } = lookup(allocation);
   const space = { sizes: uniform.factors.map((f) => f.levels.length), exclusions: uniform.exclusions };
   const c = new Array<number>(space.sizes.length);
@@ -152,8 +173,14 @@ function pickUniform(allocation: Allocation, uniform: UniformPart, rng: Rng): { 
     for (let f = 0; f < c.length; f++) key += (f === 0 ? "" : "|") + uniform.factors[f].name + "=" + uniform.factors[f].levels[c[f]];
     if (retired.has(key)) continue;
     const i = index.get(key);
-    return { combination: key, propensity: i === undefined ? uniform.mass / uniform.eligibleCount : allocation.propensities[i] };
+    return i === undefined ? { combination: key, propensity: uniform.mass / uniform.eligibleCount, predicted: null } : drawn(allocation, i);
   }
+}
+
+/** The predicted rate this allocation lists for `key` (null when it lists none). */
+export function predictedOf(allocation: Allocation, key: string): number | null {
+  const i = lookup(allocation).index.get(key);
+  return i === undefined ? null : allocation.predicted?.[i] ?? null;
 }
 
 /** The probability that this allocation serves `key` (0 for combinations it never serves). */

@@ -1,77 +1,137 @@
-import { fail } from "../errors.ts";
+/**
+ * Prequential calibration: how well the rates the model predicted when it served each pick
+ * (predictedRate.ts, stored with the pick) foretold what those visitors then did. Only picks
+ * whose attribution window has closed are scored, each once, with the forecast made before its
+ * outcome was known — Dawid's prequential principle ("Statistical theory: the prequential
+ * approach", JRSS A 147, 1984, 278–292). Comparing the current posterior with the data it was
+ * fitted on is not calibration and is not reported.
+ *
+ * From per-bin totals (the report forms them in SQL) it computes:
+ * - bins of equal pick counts by predicted rate, up to ties: of the n most recent scored picks
+ *   (at most LATEST_PICKS), all picks with one predicted value go to bin ⌊s·B/n⌋, s the number of
+ *   picks predicted lower, B = max(1, min(MAX_BINS, ⌊n/PICKS_PER_BIN⌋)) — without ties every bin
+ *   holds ⌊n/B⌋ or ⌈n/B⌉ picks; a tie is never split, so the bins do not depend on row order
+ *   (repositories/reports.ts `calibrationBins` forms them);
+ *   per bin the mean prediction, the observed rate and its 95% Wilson score interval
+ *   (E. B. Wilson, "Probable inference, the law of succession, and statistical inference",
+ *   JASA 22, 1927, 209–212), which keeps sensible bounds at 0 or few conversions;
+ * - the log loss −(1/n)Σ[yᵢ ln pᵢ + (1−yᵢ) ln(1−pᵢ)] (the logarithmic scoring rule of
+ *   I. J. Good, "Rational decisions", JRSS B 14, 1952, 107–114) and its skill against the constant
+ *   forecast ȳ, the observed rate of the same picks: 1 − LL/LL(ȳ), LL(ȳ) = −[ȳ ln ȳ + (1−ȳ) ln(1−ȳ)];
+ * - the Brier score (1/n)Σ(pᵢ − yᵢ)² (G. W. Brier, Monthly Weather Review 78, 1950, 1–3) and the
+ *   Brier skill score 1 − BS/(ȳ(1−ȳ)) against the same constant (D. S. Wilks, "Statistical Methods
+ *   in the Atmospheric Sciences", 3rd ed., 2011, §8.4). The constant is known only in hindsight,
+ *   so it is a demanding reference: a skill above 0 means the model's rates told visitors apart
+ *   better than one overall rate would have; 0 or below, that they did not (yet).
+ *
+ * Below MIN_PICKS scored picks or MIN_CONVERSIONS conversions nothing but the counts is reported
+ * (a rule of thumb: common practice, no source; with fewer, every bin's interval spans most of
+ * the range and the skill is noise).
+ */
+import { normalQuantile } from "./normalQuantile.ts";
 
-export interface CalibrationBucket {
-  /** Bucket edges on the predicted probability: [lower, upper), the last one includes 1. */
+export const MIN_PICKS = 200;
+export const MIN_CONVERSIONS = 10;
+export const MAX_BINS = 10;
+export const PICKS_PER_BIN = 100;
+/** Only the most recent scored picks are binned: the model changes, and the report's cost stays bounded. */
+export const LATEST_PICKS = 100_000;
+
+const Z975 = normalQuantile(0.975);
+
+/** Totals of one bin of scored picks. */
+export interface BinTotals {
+  picks: number;
+  conversions: number;
+  /** Σ pᵢ, min pᵢ and max pᵢ over the bin's picks. */
+  sumPredicted: number;
+  minPredicted: number;
+  maxPredicted: number;
+  /** Σ −[yᵢ ln pᵢ + (1−yᵢ) ln(1−pᵢ)] */
+  logLoss: number;
+  /** Σ (pᵢ − yᵢ)² */
+  squaredError: number;
+}
+
+export interface CalibrationBin {
+  picks: number;
+  conversions: number;
+  /** Range and mean of the predicted rates in the bin. */
+  from: number;
+  to: number;
+  predicted: number;
+  /** Observed conversion rate and its 95% Wilson score interval. */
+  observed: number;
   lower: number;
   upper: number;
-  count: number;
-  /** Mean predicted probability in the bucket; null when the bucket is empty. */
-  predicted: number | null;
-  /** Observed conversion rate in the bucket; null when the bucket is empty. */
-  observed: number | null;
 }
 
 export interface Calibration {
-  /** Mean squared difference between prediction and outcome: 0 is perfect, 0.25 is a constant ½. */
-  brier: number;
-  buckets: CalibrationBucket[];
+  /** Scored picks (window closed, prediction stored) and their conversions. */
+  picks: number;
+  conversions: number;
+  /** What `enough` asks for: MIN_PICKS and MIN_CONVERSIONS. */
+  needs: { picks: number; conversions: number };
+  /** False below MIN_PICKS picks or MIN_CONVERSIONS conversions: then bins is empty and the scores are null. */
+  enough: boolean;
+  bins: CalibrationBin[];
+  /** Observed rate of the scored picks: the constant forecast the skill scores compare with. */
+  observedRate: number | null;
+  logLoss: number | null;
+  logLossSkill: number | null;
+  brier: number | null;
+  brierSkill: number | null;
 }
 
-/**
- * How far predicted conversion probabilities can be trusted: the Brier score
- * BS = (1/N)·Σ (pᵢ − oᵢ)² and a reliability table of equal-width probability buckets with the
- * mean prediction and the observed rate in each (a well-calibrated model has them equal).
- *
- * Source: G. W. Brier (1950), "Verification of forecasts expressed in terms of probability",
- * Monthly Weather Review 78:1–3 (this is the binary form; Brier's original sums over both
- * outcome classes and is twice this). Reliability table: A. H. Murphy & R. L. Winkler (1977),
- * Applied Statistics 26:41–47; D. S. Wilks, "Statistical Methods in the Atmospheric Sciences",
- * the chapter on forecast verification.
- *
- * Throws INVALID_ARGUMENT for empty or unequal-length inputs, a prediction outside [0, 1], an
- * outcome other than 0 or 1, or a bucket count that is not a positive whole number.
- */
-export function calibration(predicted: number[], outcomes: (0 | 1)[], buckets = 10): Calibration {
-  if (predicted.length === 0) {
-    throw fail("INVALID_ARGUMENT", { argument: "predicted", reason: "is empty: there is nothing to score" }, "predicted");
+/** The 95% Wilson score interval of `successes` in `trials` (trials ≥ 1). */
+export function wilsonInterval(successes: number, trials: number, z = Z975): { lower: number; upper: number } {
+  const p = successes / trials;
+  const z2 = z * z;
+  const denominator = 1 + z2 / trials;
+  const centre = (p + z2 / (2 * trials)) / denominator;
+  const half = (z / denominator) * Math.sqrt((p * (1 - p)) / trials + z2 / (4 * trials * trials));
+  // Clamp the rounding at the ends (the exact bounds are 0 at 0 successes and 1 at all).
+  return { lower: successes === 0 ? 0 : Math.max(0, centre - half), upper: successes === trials ? 1 : Math.min(1, centre + half) };
+}
+
+/** The calibration report from the bins' totals, in bin order. */
+export function calibration(bins: BinTotals[]): Calibration {
+  let picks = 0;
+  let conversions = 0;
+  let logLoss = 0;
+  let squaredError = 0;
+  for (const b of bins) {
+    picks += b.picks;
+    conversions += b.conversions;
+    logLoss += b.logLoss;
+    squaredError += b.squaredError;
   }
-  if (outcomes.length !== predicted.length) {
-    throw fail(
-      "INVALID_ARGUMENT",
-      { argument: "outcomes", reason: `has ${outcomes.length} entries but predicted has ${predicted.length}; pair each prediction with its outcome` },
-      "outcomes",
-    );
-  }
-  if (!Number.isInteger(buckets) || buckets < 1) {
-    throw fail("INVALID_ARGUMENT", { argument: "buckets", reason: `must be a whole number ≥ 1, got ${buckets}` }, "buckets");
-  }
-  const count = new Array<number>(buckets).fill(0);
-  const sumPredicted = new Array<number>(buckets).fill(0);
-  const sumObserved = new Array<number>(buckets).fill(0);
-  let squared = 0;
-  for (let i = 0; i < predicted.length; i++) {
-    const p = predicted[i];
-    const o = outcomes[i];
-    if (!(p >= 0 && p <= 1)) {
-      throw fail("INVALID_ARGUMENT", { argument: `predicted[${i}]`, reason: `must be a probability in [0, 1], got ${p}` }, "predicted");
-    }
-    if (o !== 0 && o !== 1) {
-      throw fail("INVALID_ARGUMENT", { argument: `outcomes[${i}]`, reason: `must be 0 or 1, got ${String(o)}` }, "outcomes");
-    }
-    squared += (p - o) ** 2;
-    const b = Math.min(buckets - 1, Math.floor(p * buckets)); // p = 1 goes in the last bucket
-    count[b] += 1;
-    sumPredicted[b] += p;
-    sumObserved[b] += o;
-  }
+  const enough = picks >= MIN_PICKS && conversions >= MIN_CONVERSIONS;
+  const needs = { picks: MIN_PICKS, conversions: MIN_CONVERSIONS };
+  if (!enough) return { picks, conversions, needs, enough, bins: [], observedRate: null, logLoss: null, logLossSkill: null, brier: null, brierSkill: null };
+  const rate = conversions / picks;
+  const referenceLogLoss = -(xLogX(rate) + xLogX(1 - rate));
+  const referenceBrier = rate * (1 - rate);
   return {
-    brier: squared / predicted.length,
-    buckets: count.map((n, b) => ({
-      lower: b / buckets,
-      upper: (b + 1) / buckets,
-      count: n,
-      predicted: n === 0 ? null : sumPredicted[b] / n,
-      observed: n === 0 ? null : sumObserved[b] / n,
+    picks,
+    conversions,
+    needs,
+    enough,
+    bins: bins.map((b) => ({
+      picks: b.picks,
+      conversions: b.conversions,
+      from: b.minPredicted,
+      to: b.maxPredicted,
+      predicted: b.sumPredicted / b.picks,
+      observed: b.conversions / b.picks,
+      ...wilsonInterval(b.conversions, b.picks),
     })),
+    observedRate: rate,
+    logLoss: logLoss / picks,
+    logLossSkill: referenceLogLoss > 0 ? 1 - logLoss / picks / referenceLogLoss : null,
+    brier: squaredError / picks,
+    brierSkill: referenceBrier > 0 ? 1 - squaredError / picks / referenceBrier : null,
   };
 }
+
+const xLogX = (x: number) => (x === 0 ? 0 : x * Math.log(x));

@@ -119,6 +119,35 @@ export function choleskyInverse(l: Float64Array, d: number): Float64Array {
   return inv;
 }
 
+/**
+ * A⁻¹ = L⁻ᵀL⁻¹ from A's Cholesky factor with contiguous memory access: the columns of W = L⁻¹ by
+ * forward substitution from their diagonal (d³/6), then (A⁻¹)ᵢⱼ = Σ_{m ≥ max(i,j)} W_mi W_mj (d³/6).
+ * Several times faster than `choleskyInverse`, whose back substitution walks L by columns.
+ */
+export function covarianceFromCholesky(l: Float64Array, d: number): Float64Array {
+  const w = new Float64Array(d * d); // column j of W at w[j·d …], zero above j
+  for (let j = 0; j < d; j++) {
+    const c = j * d;
+    w[c + j] = 1 / l[j * d + j];
+    for (let i = j + 1; i < d; i++) {
+      let s = 0;
+      const ri = i * d;
+      for (let m = j; m < i; m++) s -= l[ri + m] * w[c + m];
+      w[c + i] = s / l[ri + i];
+    }
+  }
+  const out = new Float64Array(d * d);
+  for (let i = 0; i < d; i++) {
+    for (let j = i; j < d; j++) {
+      let s = 0;
+      for (let m = j; m < d; m++) s += w[i * d + m] * w[j * d + m];
+      out[i * d + j] = s;
+      out[j * d + i] = s;
+    }
+  }
+  return out;
+}
+
 /** Diagonal of A⁻¹ from A's Cholesky factor: A⁻¹ = L⁻ᵀL⁻¹, so (A⁻¹)_jj = ‖L⁻¹ e_j‖². */
 export function inverseDiagonal(l: Float64Array, d: number): Float64Array {
   const out = new Float64Array(d);

@@ -5,7 +5,7 @@
  */
 import { randomInt, randomUUID } from "node:crypto";
 import type { Pool } from "pg";
-import { createRng, pickFrom, type Rng } from "../model/index.ts";
+import { createRng, pickFrom, predictedOf, type Rng } from "../model/index.ts";
 import { claimAssignment, ensureSegment, findLiveAssignment, type ServedPick } from "../store/repositories/picks.ts";
 import { levelsOf, segmentOf, servable } from "./definition.ts";
 import type { ServingCache, ServingPage } from "./serving.ts";
@@ -46,9 +46,9 @@ export class PickService {
       const segment = segmentOf(page.stored.segmentBy, normalizeContext(page.stored.segmentBy, request.context));
       const segmentId = await this.segmentId(page, segment.key, segment.context);
       const served = segmentId === null ? "*" : segment.key;
-      const { combination, propensity } = this.choose(page, served);
+      const { combination, propensity, predicted } = this.choose(page, served);
       const claimed = await this.batcher.submit((client) => claimAssignment(client, {
-        id: randomUUID(), pageId: page.stored.id, visitor: request.visitor, segmentId, combination, propensity,
+        id: randomUUID(), pageId: page.stored.id, visitor: request.visitor, segmentId, combination, propensity, predictedRate: predicted,
         modelVersion: page.version, assignmentSeconds: page.settings.assignmentHours * 3600,
         windowSeconds: page.settings.attributionWindowHours * 3600,
         state: page.stored.status === "paused" ? "ignored" : "open", replaces: live?.pick ?? null,
@@ -59,14 +59,16 @@ export class PickService {
     }
   }
 
-  private choose(page: ServingPage, segment: string): { combination: string; propensity: number } {
-    if (page.stored.status === "paused") return { combination: page.baseline, propensity: 1 };
+  /** The combination, its propensity and its predicted rate (none while paused: those picks are never scored). */
+  private choose(page: ServingPage, segment: string): { combination: string; propensity: number; predicted: number | null } {
+    const allocation = page.allocations.get(segment) ?? page.allocations.get("*");
+    if (page.stored.status === "paused") return { combination: page.baseline, propensity: 1, predicted: null };
     if (page.stored.status === "frozen") {
       const leader = page.leaders.get(segment) ?? page.leaders.get("*");
-      return { combination: leader && servable(page.design, leader) ? leader : page.baseline, propensity: 1 };
+      const combination = leader && servable(page.design, leader) ? leader : page.baseline;
+      return { combination, propensity: 1, predicted: allocation ? predictedOf(allocation, combination) : null };
     }
-    const allocation = page.allocations.get(segment) ?? page.allocations.get("*");
-    if (!allocation) return { combination: page.baseline, propensity: 1 };
+    if (!allocation) return { combination: page.baseline, propensity: 1, predicted: null };
     return pickFrom(allocation, this.rng);
   }
 

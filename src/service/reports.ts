@@ -2,15 +2,16 @@
  * The page report: per segment and pooled — visitors, conversions, status, leader and top
  * combinations (probability of being best, rate interval, each level's value), retired
  * combinations with reasons, expected loss, factor effects, the naive leader-vs-baseline
- * cross-check with its warning, calibration — and the allocation history for charts. The
- * figures are the engine's, stored by the fold loop; this module only joins them with counts.
+ * cross-check with its warning, prequential calibration of the rates predicted when each pick was
+ * served (scored once its window closed; binned in SQL) — and the allocation history for charts.
+ * The figures are the engine's, stored by the fold loop; this module only joins them with counts.
  * Shape: the contract's "Report JSON shape".
  */
 import type { Pool } from "pg";
-import { calibration, crossCheck } from "../model/index.ts";
+import { calibration, crossCheck, LATEST_PICKS, MAX_BINS, PICKS_PER_BIN } from "../model/index.ts";
 import type { Allocation, CombinationSummary, SegmentSummary } from "../model/index.ts";
 import { loadRetired, loadSnapshot } from "../store/repositories/folds.ts";
-import { allocationHistory, pickCounts, segmentContexts, type CountRow } from "../store/repositories/reports.ts";
+import { allocationHistory, calibrationBins, pickCounts, segmentContexts, type CountRow } from "../store/repositories/reports.ts";
 import type { StoredPage } from "../store/repositories/pages.ts";
 import { levelsOf, settingsOf } from "./definition.ts";
 import { asServiceError } from "./errors.ts";
@@ -19,7 +20,6 @@ import type { PageService } from "./pages.ts";
 const HISTORY_POINTS = 200;
 const HISTORY_SERIES = 6;
 const MIN_SHARE = 0.001;
-const CALIBRATION_CAP = 200_000;
 
 export interface CombinationReport extends CombinationSummary {
   levels: Record<string, { level: string; value: string }>;
@@ -37,7 +37,7 @@ export interface SegmentReport {
   segmentSpread: number | null;
   retired: { combination: string; reason: string; figures: Record<string, unknown>; retiredAt: string; reinstatedAt: string | null; reinstateReason: string | null }[];
   crossCheck: (ReturnType<typeof crossCheck> & { leader: Arm; baseline: Arm }) | null;
-  calibration: ReturnType<typeof calibration> | null;
+  calibration: ReturnType<typeof calibration>;
   allocation: Record<string, number>;
 }
 
@@ -63,6 +63,7 @@ export class ReportService {
       const contexts = await segmentContexts(this.pool, page.id);
       const retired = await loadRetired(this.pool, page.id);
       const history = await allocationHistory(this.pool, page.id, HISTORY_POINTS);
+      const bins = await calibrationBins(this.pool, page.id, { maxBins: MAX_BINS, perBin: PICKS_PER_BIN, latest: LATEST_PICKS });
       const current = new Map(history.filter((h) => h.version === page.modelVersion).map((h) => [h.segment, h.allocation as Allocation]));
 
       const segmentKeys = [...new Set([...contexts.keys(), ...counts.map((c) => c.segment).filter((s) => s !== "*")])];
@@ -97,7 +98,7 @@ export class ReportService {
             };
           }),
           crossCheck: naiveCheck(leader, baseline),
-          calibration: calibrationOf(summary, rows),
+          calibration: calibration(bins.filter((b) => b.segment === (segment === "*" ? null : segment))),
           allocation: shares(current.get(segment), null),
         };
       };
@@ -147,25 +148,4 @@ function naiveCheck(leader: CombinationReport | null, baseline: CombinationRepor
   const a = { visitors: leader.visitors, conversions: leader.conversions };
   const b = { visitors: baseline.visitors, conversions: baseline.conversions };
   return { leader: a, baseline: b, ...crossCheck(a, b) };
-}
-
-/**
- * The current posterior mean rate of each listed combination against the folded picks that showed
- * it (in-sample: a check that the model fits what it learned from, not a forecast score).
- */
-function calibrationOf(summary: SegmentSummary | undefined, rows: CountRow[]): SegmentReport["calibration"] {
-  if (!summary) return null;
-  const predicted = new Map<string, number>();
-  for (const c of [summary.baseline, summary.leader, ...summary.top]) predicted.set(c.combination, c.rate.mean);
-  const p: number[] = [];
-  const o: (0 | 1)[] = [];
-  for (const r of rows) {
-    const rate = predicted.get(r.combination);
-    if (rate === undefined) continue;
-    for (let i = 0; i < r.folded && p.length < CALIBRATION_CAP; i++) {
-      p.push(rate);
-      o.push(i < r.foldedConversions ? 1 : 0);
-    }
-  }
-  return p.length === 0 ? null : calibration(p, o);
 }

@@ -6,9 +6,12 @@
  * segment's allocation. Nothing of the model is re-implemented here.
  *
  * A segment counts as settled the first time its summary says "settled"; the leader at that fold
- * is recorded so the harness can judge whether stopping there would have been right.
+ * is recorded so the harness can judge whether stopping there would have been right. Asked at the
+ * end of a run, `intervals` gives every segment's and combination's rate interval exactly as the
+ * server's report computes it (`combinationRates`).
  */
 import {
+  combinationRates,
   foldCycle,
   initialState,
   pickFrom,
@@ -100,5 +103,10 @@ export function facetwisePolicy(options: FacetwiseOptions): FacetwisePolicy {
     leaders: () => leaderIndex,
     settled: () => settled,
     state: () => state,
+    intervals: () =>
+      segmentNames.map((segment) => {
+        const rates = combinationRates({ design, settings, state, segment, combinations: keys, seed: rng.int(2 ** 31) });
+        return keys.map((key) => rates[key]!);
+      }),
   };
 }

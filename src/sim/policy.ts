@@ -4,6 +4,8 @@
  * calls `serve` for each visitor, `observe` when that visitor's pick matures (maturity.ts),
  * `fold` on the page's fold interval, and `leaders` once at the end.
  */
+import type { RateInterval } from "../model/index.ts";
+
 export interface SettleRecord {
   /** Visitor index at which the segment first settled. */
   visitor: number;
@@ -20,4 +22,6 @@ export interface Policy {
   leaders(): Int32Array;
   /** First settle per segment (null = not yet), for policies with a stopping rule; else undefined. */
   settled?(): (SettleRecord | null)[];
+  /** The 95% rate interval it would report now, per segment and combination (the engine only). */
+  intervals?(): RateInterval[][];
 }

@@ -1,7 +1,9 @@
 /**
  * The human-readable form of a simulation report (what `facetwise simulate` prints without --json),
- * with the issue-4 targets beside the headline ratios.
+ * with the issue-4 targets beside the headline ratios and, when given, the coverage of the
+ * engine's final 95% rate intervals (intervalCoverage.ts).
  */
+import { type Coverage, SMALL_SHARE } from "./intervalCoverage.ts";
 import { POLICY_NAMES } from "./runSimulation.ts";
 import type { SimulationReport } from "./summarize.ts";
 
@@ -16,6 +18,8 @@ export function formatTable(
     seconds?: number;
     /** Share of run × segment pairs in which the engine's segment settled within the horizon. */
     settledShare?: number;
+    /** Coverage of the engine's final 95% intervals, overall and in small segments. */
+    coverage?: { overall: Coverage | null; small: Coverage | null };
   },
 ): string {
   const rows = [["policy", "regret mean (p10–p90)", "conversions", "final correct", "settled by (median)", "settle correct"]];
@@ -52,5 +56,19 @@ export function formatTable(
     `final correct        ${pct(s.finalCorrect).padStart(7)}   target ≥ 95%   ${s.finalCorrect >= 0.95 ? "met" : "MISSED"}`,
     `regret vs independent${s.regretVsIndependent.toFixed(2).padStart(8)}   target ≤ 0.5 ` +
       (needsIndependent ? `  ${s.regretVsIndependent <= 0.5 ? "met" : "MISSED"}` : "  (applies from 48 combinations)"),
+    ...(context.coverage ? coverageLines(context.coverage) : []),
   ].join("\n");
+}
+
+/** "94.8% (94.0–95.5%) of 1,440": the share of intervals holding the truth with its 95% binomial interval. */
+function coverageLines(coverage: { overall: Coverage | null; small: Coverage | null }): string[] {
+  const figure = (c: Coverage | null): string =>
+    c === null ? "— (none)" : `${pct(c.share)} (${pct(c.lower)}–${pct(c.upper)}) of ${int(c.total)}`;
+  const small = `segments with ≤ ${pct(SMALL_SHARE)} of traffic`;
+  return [
+    "",
+    "Final 95% rate intervals of the engine that contain the true rate (nominal 95%; 95% binomial interval):",
+    `  ${"all segments".padEnd(small.length)}  ${figure(coverage.overall)}`,
+    `  ${small}  ${figure(coverage.small)}`,
+  ];
 }

@@ -4,7 +4,8 @@
  * on the page's fold interval, and the run records per policy the regret, conversions and
  * traffic on the true best (regretLedger.ts), whether the final leaders are within `mde` of their
  * segment's best (final phase's truth), and when each segment first settled and whether that
- * leader was right (truth at that moment).
+ * leader was right (truth at that moment); when asked, the engine's final 95% rate intervals beside
+ * the final phase's true rates.
  */
 import { createRng } from "../model/index.ts";
 import { facetwisePolicy } from "./facetwisePolicy.ts";
@@ -29,6 +30,8 @@ export interface RunOptions {
   points: number;
   /** Policies to run (default all three). */
   policies?: readonly PolicyName[];
+  /** Whether the engine reports its final rate intervals (FinalInterval; computed once, at the end). */
+  intervals?: boolean;
   /** Called after each slice with the share of the run done (for progress bars). */
   onSlice?: (done: number) => void;
 }
@@ -46,6 +49,18 @@ export interface PolicyRun {
   curve: number[];
   /** bestShare[s][b]: share of segment s's visitors in slice b served the segment's true best. */
   bestShare: number[][];
+  /** The policy's final 95% rate intervals with the final truth, when asked and the policy has them. */
+  intervals?: FinalInterval[];
+}
+
+/** One segment's and combination's final interval (indices as in the truth table), beside its true rate. */
+export interface FinalInterval {
+  segment: number;
+  combination: number;
+  truth: number;
+  mean: number;
+  lower: number;
+  upper: number;
 }
 
 export type RunResult = Record<PolicyName, PolicyRun>;
@@ -112,6 +127,7 @@ export function runSimulation(setup: Setup, options: RunOptions): RunResult {
     policies[p]!.fold(N + scale.windowVisitors);
     const leaders = policies[p]!.leaders();
     const settled = policies[p]!.settled?.();
+    const intervals = options.intervals ? policies[p]!.intervals?.() : undefined;
     result[name] = {
       regret: ledgers[p]!.regret,
       conversions: ledgers[p]!.conversions,
@@ -127,6 +143,11 @@ export function runSimulation(setup: Setup, options: RunOptions): RunResult {
         : null,
       curve: ledgers[p]!.curve,
       bestShare: ledgers[p]!.bestShare(),
+      ...(intervals && {
+        intervals: intervals.flatMap((rates, s) =>
+          rates.map((r, c) => ({ segment: s, combination: c, truth: finalPhase.rates[s * C + c]!, mean: r.mean, lower: r.lower, upper: r.upper })),
+        ),
+      }),
     };
   });
   return result;

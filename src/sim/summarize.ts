@@ -5,6 +5,7 @@
  * runs of the visitor at which every segment had settled; a run that never settled counts as
  * beyond the horizon, so it is null when half or more never settled) and settleCorrect (share of
  * settled segments whose leader at that moment was within mde); then the headline ratios.
+ * `intervalRows` gives the engine's final rate intervals in the shape of `--intervals`.
  */
 import type { FixedHorizon } from "./fixedHorizon.ts";
 import { quantile } from "./quantile.ts";
@@ -55,6 +56,33 @@ export function summarizePolicy(results: RunResult[], name: PolicyName): PolicyR
 export function settledShare(results: RunResult[], name: PolicyName): number | undefined {
   const settled = results.flatMap((r) => r[name].settleCorrect ?? []);
   return settled.length > 0 ? settled.filter((x) => x !== null).length / settled.length : undefined;
+}
+
+/** The `intervals` of `simulate --json --intervals`: the engine's final 95% rate intervals beside the truth. */
+export interface IntervalRow {
+  run: number;
+  segment: string;
+  share: number;
+  combination: string;
+  truth: number;
+  mean: number;
+  lower: number;
+  upper: number;
+}
+
+export function intervalRows(results: RunResult[], segments: { name: string; share: number }[], keys: string[]): IntervalRow[] {
+  return results.flatMap((r, run) =>
+    (r.facetwise.intervals ?? []).map((i) => ({
+      run,
+      segment: segments[i.segment]!.name,
+      share: segments[i.segment]!.share,
+      combination: keys[i.combination]!,
+      truth: i.truth,
+      mean: i.mean,
+      lower: i.lower,
+      upper: i.upper,
+    })),
+  );
 }
 
 export function summarize(

@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { combinationKey, createRng, foldCycle, initialState, parseSettings, pickFrom, propensityOf } from "../../src/model/index.ts";
+import { combinationKey, createRng, foldCycle, initialState, parseSettings, pickFrom, predictedOf, propensityOf } from "../../src/model/index.ts";
 import { allocateSegment } from "../../src/model/allocateSegment.ts";
 import { mixAllocation } from "../../src/model/allocation.ts";
 import { factorSpd } from "../../src/model/linalg.ts";
@@ -123,7 +123,11 @@ describe("Thompson allocation", () => {
     const out = foldCycle({ design, settings, state: initialState(design, settings), rows, now: 0, segments: ["s"], retired: [], seed: 1, frozen: true });
     const a = out.allocations.s;
     expect(a.keys).toEqual([out.summaries.s.leader.combination]);
-    expect(pickFrom(a, createRng(1))).toEqual({ combination: out.summaries.s.leader.combination, propensity: 1 });
+    const leader = out.summaries.s.leader;
+    const drawn = pickFrom(a, createRng(1));
+    expect(drawn).toMatchObject({ combination: leader.combination, propensity: 1 });
+    // Its predicted rate is the posterior mean rate; the summary's is the same mean over 1,000 draws.
+    expect(Math.abs(drawn.predicted! - leader.rate.mean)).toBeLessThan(4 * Math.sqrt(leader.rate.mean * (1 - leader.rate.mean) / settings.samples));
   });
 });
 
@@ -133,7 +137,8 @@ describe("alias draws", () => {
     const keys = Array.from({ length: 12 }, (_, i) => `f0=l${i}`);
     const weights = keys.map((_, i) => (i + 1) ** 2);
     const total = weights.reduce((a, b) => a + b, 0);
-    const allocation = mixAllocation({ segment: "s", keys, thompson: weights.map((w) => w / total), eligible: keys.map(() => 1), baselineKey: keys[0], baselineShare: 0.05, explorationFloor: 0.1 });
+    const predicted = keys.map((_, i) => i / 100);
+    const allocation = mixAllocation({ segment: "s", keys, predicted, thompson: weights.map((w) => w / total), eligible: keys.map(() => 1), baselineKey: keys[0], baselinePredicted: 0, baselineShare: 0.05, explorationFloor: 0.1 });
     const rng = createRng(5);
     const counts = new Map<string, number>();
     const draws = 200_000;
@@ -141,6 +146,7 @@ describe("alias draws", () => {
     for (let i = 0; i < draws; i++) {
       const pick = pickFrom(allocation, rng);
       if (pick.propensity !== propensityOf(allocation, pick.combination)) mismatched++;
+      if (pick.predicted !== predicted[keys.indexOf(pick.combination)]) mismatched++; // each pick carries its own combination's prediction
       counts.set(pick.combination, (counts.get(pick.combination) ?? 0) + 1);
     }
     expect(mismatched).toBe(0);
@@ -171,6 +177,7 @@ describe("alias draws", () => {
       const pick = pickFrom(allocation, rng);
       if (Math.abs(pick.propensity - propensityOf(allocation, pick.combination)) > 1e-15) mismatched++;
       if (pick.combination.startsWith("f0=l1|f1=l1|")) excluded++; // never an excluded combination
+      if (pick.predicted !== predictedOf(allocation, pick.combination)) mismatched++; // listed: its own; drawn uniformly: none
       if (allocation.keys.includes(pick.combination)) listed.set(pick.combination, (listed.get(pick.combination) ?? 0) + 1);
       else other++;
     }

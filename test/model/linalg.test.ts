@@ -1,7 +1,7 @@
 import { CholeskyDecomposition, inverse, Matrix } from "ml-matrix";
 import { describe, expect, it } from "vitest";
 import { createRng } from "../../src/model/index.ts";
-import { cholesky, choleskyInverse, choleskySolve, inverseDiagonal } from "../../src/model/linalg.ts";
+import { cholesky, choleskyInverse, choleskySolve, covarianceFromCholesky, inverseDiagonal } from "../../src/model/linalg.ts";
 
 /** A random symmetric positive-definite matrix A = BᵀB + I. */
 function spd(d: number, seed: number): Float64Array {
@@ -17,7 +17,7 @@ function spd(d: number, seed: number): Float64Array {
 }
 
 describe("dense SPD linear algebra agrees with ml-matrix (reference library)", () => {
-  it("Cholesky factor, solve, inverse and inverse diagonal", () => {
+  it("Cholesky factor, solve, inverse (both ways) and inverse diagonal", () => {
     for (const d of [1, 5, 40]) {
       const a = spd(d, d);
       const rows = Array.from({ length: d }, (_, i) => Array.from(a.subarray(i * d, i * d + d)));
@@ -31,9 +31,11 @@ describe("dense SPD linear algebra agrees with ml-matrix (reference library)", (
       const inv = choleskyInverse(l, d);
       const refInv = inverse(new Matrix(rows));
       const diag = inverseDiagonal(l, d);
+      const covariance = covarianceFromCholesky(l, d);
       for (let i = 0; i < d; i++) {
         expect(diag[i]).toBeCloseTo(refInv.get(i, i), 10);
         for (let j = 0; j < d; j++) expect(inv[i * d + j]).toBeCloseTo(refInv.get(i, j), 10);
+        for (let j = 0; j < d; j++) expect(covariance[i * d + j]).toBeCloseTo(refInv.get(i, j), 10);
       }
     }
   });

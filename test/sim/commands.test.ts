@@ -55,7 +55,38 @@ describe("facetwise simulate", () => {
     expect(readFileSync(join(dir, "out", "best-share.svg"), "utf8")).toContain("s1");
   });
 
+  it("--json --intervals adds every run's, segment's and combination's final interval beside the truth; the table prints their coverage", async () => {
+    const out = capture();
+    expect(await simulate([scenarioPath, "--runs", "2", "--visitors", "600", "--seed", "3", "--json", "--intervals", "--threads", "1"])).toBe(0);
+    out.restore();
+    const report = JSON.parse(out.lines[0]!);
+    expect(Object.keys(report)).toEqual(["scenario", "visitors", "runs", "seed", "mde", "fixedHorizon", "policies", "summary", "intervals"]);
+    // 2 runs × 2 segments × 6 combinations (DESIGN.md "Scenario files, round 2 additions").
+    expect(report.intervals).toHaveLength(24);
+    for (const row of report.intervals) {
+      expect(Object.keys(row)).toEqual(["run", "segment", "share", "combination", "truth", "mean", "lower", "upper"]);
+      expect(row.lower).toBeLessThanOrEqual(row.mean);
+      expect(row.mean).toBeLessThanOrEqual(row.upper);
+      // Truth by hand: baseline 0.1 everywhere, headline b shifts the log-odds by 0.4:
+      // 1/(1 + 9·e^−0.4) = 0.142189.
+      expect(row.truth).toBeCloseTo(row.combination.startsWith("headline=b|") ? 0.142189 : 0.1, 6);
+    }
+    expect(new Set(report.intervals.map((r: { run: number }) => r.run))).toEqual(new Set([0, 1]));
+    expect(report.intervals.filter((r: { segment: string; share: number }) => r.segment === "s2" && r.share === 0.4)).toHaveLength(12);
+
+    const table = capture();
+    expect(await simulate([scenarioPath, "--runs", "2", "--visitors", "600", "--seed", "3", "--threads", "1"])).toBe(0);
+    table.restore();
+    const text = table.lines.join("\n");
+    // The same seed gives the same intervals: the table's count is over those 24.
+    const covered = report.intervals.filter((r: { truth: number; lower: number; upper: number }) => r.lower <= r.truth && r.truth <= r.upper).length;
+    expect(text).toContain("Final 95% rate intervals");
+    expect(text).toMatch(new RegExp(`all segments +${(covered / 24 * 100).toFixed(1)}% \\(.+\\) of 24`));
+    expect(text).toMatch(/segments with ≤ 10.0% of traffic +— \(none\)/);
+  });
+
   it.each([
+    [[scenarioPath, "--intervals"], /--intervals: adds to the JSON report/],
     [["--runs", "2"], /give exactly one scenario file/],
     [[scenarioPath, "--runs", "0"], /--runs: expected a whole number at least 1/],
     [[scenarioPath, "--bogus"], /Unknown option '--bogus'/],

@@ -41,6 +41,19 @@ describe("runSimulation", () => {
     expect(r.split.visitorsToSettle).toBeNull();
   });
 
+  it("reports the engine's final intervals beside the final truth only when asked", () => {
+    const s = setup(twoArms);
+    const options = { visitors: 3000, seed: 5, maturity: "server" as const, points: 1, policies: ["facetwise", "split"] as const };
+    const asked = runSimulation(s, { ...options, intervals: true });
+    expect(asked.facetwise.intervals!.map((i) => [i.segment, i.combination, i.truth])).toEqual([[0, 0, 0.1], [0, 1, 0.2]]);
+    for (const i of asked.facetwise.intervals!) expect(i.lower < i.mean && i.mean < i.upper).toBe(true);
+    expect(asked.split.intervals).toBeUndefined(); // baselines report no intervals
+    const plain = runSimulation(s, options);
+    expect(plain.facetwise.intervals).toBeUndefined();
+    // Asking for them happens after the run: nothing else changes.
+    expect({ ...asked.facetwise, intervals: undefined }).toEqual({ ...plain.facetwise, intervals: undefined });
+  });
+
   it("is deterministic given a seed, and a different seed changes the run", () => {
     const s = setup(small);
     const options = { visitors: 4000, maturity: "server" as const, points: 4 };

@@ -78,6 +78,7 @@ const fixtures: Record<Prisma.ModelName, Fixture> = {
       state: "folded",
       foldedVersion: 7,
       conversionFoldedVersion: INT4_MAX,
+      predictedRate: 0.03125,
     }),
   },
   Assignment: {

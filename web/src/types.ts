@@ -80,9 +80,20 @@ export interface RetiredReport {
 
 export interface Estimate { estimate: number; lower: number; upper: number; method?: string }
 
+/** Prequential calibration (src/model/calibration.ts): picks scored once their window closed. */
 export interface Calibration {
-  brier: number;
-  buckets: { lower: number; upper: number; count: number; predicted: number | null; observed: number | null }[];
+  picks: number;
+  conversions: number;
+  needs: { picks: number; conversions: number };
+  /** false: too little data; bins is empty and the scores are null */
+  enough: boolean;
+  /** equal-count bins by predicted rate: range and mean prediction, observed rate with its 95% Wilson interval */
+  bins: { picks: number; conversions: number; from: number; to: number; predicted: number; observed: number; lower: number; upper: number }[];
+  observedRate: number | null;
+  logLoss: number | null;
+  logLossSkill: number | null;
+  brier: number | null;
+  brierSkill: number | null;
 }
 
 export interface CrossCheck {
@@ -112,7 +123,7 @@ export interface SegmentReport {
   segmentSpread: number | null;
   retired: RetiredReport[];
   crossCheck: CrossCheck | null;
-  calibration: Calibration | null;
+  calibration: Calibration;
   allocation: Record<string, number>;
 }
 

@@ -30,6 +30,8 @@ export async function findLiveAssignment(q: Queryable, pageId: number, visitor: 
 
 export interface NewPick {
   id: string; pageId: number; visitor: string; segmentId: number | null; combination: string; propensity: number;
+  /** the predicted rate of the combination in the allocation that served it (null: none listed) */
+  predictedRate: number | null;
   modelVersion: number; assignmentSeconds: number; windowSeconds: number; state: "open" | "ignored";
   /** a live assignment to replace anyway (its combination no longer exists on the page) */
   replaces: string | null;
@@ -48,15 +50,15 @@ export async function claimAssignment(q: Queryable, p: NewPick): Promise<{ won: 
        WHERE assignment.expires_at <= now() OR assignment.pick_id = $5::uuid
        RETURNING pick_id),
      stored AS (
-       INSERT INTO pick (id, page_id, visitor, segment_id, combination, propensity, model_version, created_at, expires_at, window_ends_at, state)
-       SELECT pick_id, $1, $2, $6, $7, $8, $9, now(), now() + make_interval(secs => $4), now() + make_interval(secs => $10), $11 FROM claim
+       INSERT INTO pick (id, page_id, visitor, segment_id, combination, propensity, model_version, created_at, expires_at, window_ends_at, state, predicted_rate)
+       SELECT pick_id, $1, $2, $6, $7, $8, $9, now(), now() + make_interval(secs => $4), now() + make_interval(secs => $10), $11, $12::float8 FROM claim
        RETURNING id, combination, propensity)
      SELECT true AS won, id, combination, propensity, NULL AS segment FROM stored
      UNION ALL
      SELECT false, p.id, p.combination, p.propensity, s.key
      FROM assignment a JOIN pick p ON p.id = a.pick_id LEFT JOIN segment s ON s.id = p.segment_id
      WHERE a.page_id = $1 AND a.visitor = $2 AND NOT EXISTS (SELECT 1 FROM claim)`,
-    [p.pageId, p.visitor, p.id, p.assignmentSeconds, p.replaces, p.segmentId, p.combination, p.propensity, p.modelVersion, p.windowSeconds, p.state]);
+    [p.pageId, p.visitor, p.id, p.assignmentSeconds, p.replaces, p.segmentId, p.combination, p.propensity, p.modelVersion, p.windowSeconds, p.state, p.predictedRate]);
   if (rows[0]?.won) return { won: true, pick: { pick: p.id, combination: p.combination, propensity: p.propensity, segment: "" } };
   if (rows[0]) return { won: false, pick: served(rows[0]) };
   // The winner committed after this statement's snapshot was taken: read it with a fresh one.

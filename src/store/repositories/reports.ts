@@ -40,3 +40,55 @@ export async function allocationHistory(q: Queryable, pageId: number, points: nu
      WHERE a.page_id = $1 ORDER BY a.version, a.segment`, [pageId, points]);
   return rows.map((r) => ({ version: r.version, segment: r.segment, allocation: r.allocation, at: r.created_at }));
 }
+
+export interface CalibrationBinRow {
+  /** segment key, "*" for picks served as new traffic; null for the pooled bins over all picks */
+  segment: string | null;
+  bin: number;
+  picks: number; conversions: number;
+  sumPredicted: number; minPredicted: number; maxPredicted: number;
+  logLoss: number; squaredError: number;
+}
+
+/**
+ * Bins of the most recent `latest` picks that can be scored — attribution window closed,
+ * prediction stored, not set aside — per segment and pooled (segment null), with the totals
+ * calibration.ts needs. Picks are first counted per distinct prediction (one per combination,
+ * segment and fold), then a prediction whose lower-predicted picks number s of n goes, with all
+ * its picks, to bin ⌊s·B/n⌋, B = max(1, min(maxBins, ⌊n/perBin⌋)): equal counts up to ties (the
+ * rule of src/model/calibration.ts). A conversion counts when it was reported inside the window
+ * (converted_at is only set then). Segments are grouped by id and named at the end, so every sort
+ * is on numbers.
+ */
+export async function calibrationBins(
+  q: Queryable, pageId: number, options: { maxBins: number; perBin: number; latest: number },
+): Promise<CalibrationBinRow[]> {
+  const { rows } = await q.query<CalibrationBinRow>(
+    `WITH recent AS (
+       SELECT segment_id, predicted_rate AS p, converted_at FROM pick
+       WHERE page_id = $1 AND predicted_rate IS NOT NULL AND state <> 'ignored' AND window_ends_at < now()
+       ORDER BY window_ends_at DESC, id DESC LIMIT $4),
+     tied AS (
+       SELECT segment_id, p, count(*)::int AS n, count(converted_at)::int AS k FROM recent GROUP BY 1, 2),
+     grouped AS (
+       SELECT false AS pooled, segment_id, p, n, k FROM tied
+       UNION ALL
+       SELECT true, NULL, p, sum(n)::int, sum(k)::int FROM tied GROUP BY p),
+     ranked AS (
+       SELECT pooled, segment_id, p, n, k,
+         sum(n) OVER (PARTITION BY pooled, segment_id ORDER BY p ROWS UNBOUNDED PRECEDING)::bigint - n AS below,
+         sum(n) OVER (PARTITION BY pooled, segment_id)::bigint AS total
+       FROM grouped),
+     binned AS (
+       SELECT pooled, segment_id, (below * greatest(1, least($2::bigint, total / $3::bigint)) / total)::int AS bin,
+         sum(n)::int AS picks, sum(k)::int AS conversions,
+         sum(n * p) AS "sumPredicted", min(p) AS "minPredicted", max(p) AS "maxPredicted",
+         sum(-k * ln(p) - (n - k) * ln(1 - p)) AS "logLoss",
+         sum(k * (1 - p) ^ 2 + (n - k) * p ^ 2) AS "squaredError"
+       FROM ranked GROUP BY 1, 2, 3)
+     SELECT CASE WHEN b.pooled THEN NULL ELSE coalesce(s.key, '*') END AS segment, b.bin, b.picks, b.conversions,
+       b."sumPredicted", b."minPredicted", b."maxPredicted", b."logLoss", b."squaredError"
+     FROM binned b LEFT JOIN segment s ON s.id = b.segment_id
+     ORDER BY b.pooled, b.segment_id, b.bin`, [pageId, options.maxBins, options.perBin, options.latest]);
+  return rows;
+}

@@ -3,7 +3,8 @@
  * chosen segment in full — its leader with each level's value, how sure the model is, how close the
  * segment is to settling and what stopping now would cost, the next best combinations, traffic
  * share over time, the intervals of the top combinations, each factor's effect, and the naive
- * leader-versus-baseline cross-check with its caution.
+ * leader-versus-baseline cross-check with its caution, and whether the model's predicted rates came
+ * true (calibration.ts).
  */
 import { h, type Child } from "../dom.ts";
 import { allocationChart, allocationRows, allocationSeries, effectChart, effectWord, intervalChart, seriesColours } from "../charts.ts";
@@ -11,6 +12,7 @@ import { n, pct, prob, ratio, rateWithInterval, segmentLabel, absoluteTime } fro
 import type { Report, SegmentReport } from "../types.ts";
 import { comboChips, combinationLevels, segmentBadge } from "./parts.ts";
 import type { UiState } from "./pageView.ts";
+import { calibrationCard } from "./calibration.ts";
 
 export function renderResults(report: Report, ui: UiState, width: number, redraw: () => void): Child[] {
   const all = [...report.segments, report.pooled];
@@ -221,7 +223,7 @@ function topCard(seg: SegmentReport, width: number): HTMLElement {
 }
 
 /** A <details> whose open state lives in the view's state, so a refresh does not close it. */
-function panelDetails(ui: UiState, id: string, summary: string, ...content: Child[]): HTMLElement {
+export function panelDetails(ui: UiState, id: string, summary: string, ...content: Child[]): HTMLElement {
   const details = h("details", { class: "more", "data-panel": id, open: ui.open.has(id) }, h("summary", { "data-focus-key": `panel:${id}` }, summary), content);
   details.addEventListener("toggle", () => {
     if (details.open) ui.open.add(id);
@@ -325,31 +327,6 @@ function crossCheckCard(seg: SegmentReport): HTMLElement {
     lift.absolute.method || lift.relative.method
       ? h("p", { class: "hint" }, `Intervals: ${[lift.absolute.method, lift.relative.method].filter(Boolean).join("; ")}.`)
       : null,
-  );
-}
-
-/** How well predicted rates matched what happened, for visits already in the model. */
-function calibrationCard(seg: SegmentReport, ui: UiState): HTMLElement | null {
-  const c = seg.calibration;
-  if (!c || c.buckets.every((b) => b.count === 0)) return null;
-  const rows = c.buckets.filter((b) => b.count > 0).map((b) =>
-    h("tr", null,
-      h("th", { scope: "row", class: "nowrap" }, `${pct(b.lower, 0)} – ${pct(b.upper, 0)}`),
-      h("td", { class: "num", "data-label": "Visits" }, n(b.count)),
-      h("td", { class: "num", "data-label": "Predicted" }, pct(b.predicted)),
-      h("td", { class: "num", "data-label": "Happened" }, pct(b.observed))));
-  return h(
-    "section",
-    { class: "panel", "aria-labelledby": "cal-title" },
-    h("h3", { id: "cal-title" }, "Did the predictions come true?"),
-    h("p", { class: "hint" },
-      `Visits grouped by the conversion rate the model predicted for them, beside the rate that actually happened. Close figures mean the model's rates can be trusted. Brier score ${c.brier.toFixed(4)} (lower is better).`),
-    panelDetails(ui, `calibration:${seg.segment}`, "Show predicted against actual rates",
-      h("div", { class: "table-wrap" }, h("table", { class: "data stack" },
-        h("caption", { class: "visually-hidden" }, "Predicted and actual conversion rates by prediction band"),
-        h("thead", null, h("tr", null, h("th", { scope: "col" }, "Predicted band"), h("th", { scope: "col", class: "num" }, "Visits"),
-          h("th", { scope: "col", class: "num" }, "Predicted"), h("th", { scope: "col", class: "num" }, "Happened"))),
-        h("tbody", null, rows)))),
   );
 }
 
