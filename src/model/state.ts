@@ -39,6 +39,8 @@ export interface ModelState {
    * it, and the next search starts from it. null before the first cycle.
    */
   segmentSpread: number | null;
+  /** Segments settled after the last cycle, for the settle rule's hysteresis (settleRule.ts); absent = none. */
+  settled?: string[];
 }
 
 export function emptySite(d: number): Site {
@@ -69,6 +71,8 @@ interface SerializedState {
   dominated: Record<string, Record<string, number>>;
   /** Absent in snapshots written before the spread was learned. */
   segmentSpread?: number | null;
+  /** Absent in snapshots written before the settle rule had hysteresis. */
+  settled?: string[];
 }
 
 export function serializeState(state: ModelState): SerializedState {
@@ -81,7 +85,7 @@ export function serializeState(state: ModelState): SerializedState {
   }
   const dominated: Record<string, Record<string, number>> = {};
   for (const [segment, counts] of state.dominated) dominated[segment] = Object.fromEntries(counts);
-  return { version: 1, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated, segmentSpread: state.segmentSpread };
+  return { version: 1, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, sites, dominated, segmentSpread: state.segmentSpread, settled: state.settled ?? [] };
 }
 
 export function deserializeState(json: unknown): ModelState {
@@ -127,7 +131,9 @@ export function deserializeState(json: unknown): ModelState {
   if (segmentSpread !== null && !(typeof segmentSpread === "number" && Number.isFinite(segmentSpread) && segmentSpread >= 0)) {
     throw bad("segmentSpread must be a non-negative number or null");
   }
-  return { version: 1, featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt, sites, dominated, segmentSpread };
+  const settled = s.settled ?? [];
+  if (!Array.isArray(settled) || !settled.every((x) => typeof x === "string")) throw bad("settled must be a list of segment keys");
+  return { version: 1, featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt, sites, dominated, segmentSpread, settled: settled.slice() };
 }
 
 /** Throws INVALID_MODEL_STATE when a state was built for a different design. */
