@@ -184,7 +184,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     runnerUpProbability: order.length > 1 ? cand.probabilityBest[order[1]] : 0,
     nearBar: nearBar({
       leaderProbability: cand.probabilityBest[order[0]],
-      leaderProbabilityError: monteCarloError(cand.probabilityBest[order[0]], M).standardError,
+      leaderProbabilityError: monteCarloError(bars.probability, M).standardError,
       lossFraction: lossFractionOf(figures.loss.value),
       lossFractionError: lossFractionOf(figures.loss.standardError),
     }, bars),

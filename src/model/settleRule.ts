@@ -44,6 +44,7 @@ export function settledStatus(leaderProbability: number, lossFraction: number, b
 
 export interface SettleFigures {
   leaderProbability: number;
+  /** The share's binomial standard error at the bar, √(bar(1 − bar)/M): a z-test of "the figure is the bar". */
   leaderProbabilityError: number;
   lossFraction: number;
   lossFractionError: number;
