@@ -40,9 +40,9 @@ describe("settle rule with hysteresis", () => {
       let settled = false;
       let changes = 0;
       for (let seed = 1; seed <= 60; seed++) {
-        const now = round(design, g, seed, s, settled).status === "settled";
-        if (now !== settled) changes++;
-        settled = now;
+        const next: boolean = round(design, g, seed, s, settled).status === "settled";
+        if (next !== settled) changes++;
+        settled = next;
       }
       return changes;
     };
