@@ -27,7 +27,8 @@ export { pickFrom, propensityOf, type Allocation } from "./allocation.ts";
 export { combinationRates } from "./combinationRates.ts";
 export { quantileInPlace } from "./quantile.ts";
 export type { RetiredEntry } from "./retirement.ts";
-export type { CombinationSummary, FactorEffect, RateInterval, SegmentSummary } from "./summary.ts";
+export type { CombinationSummary, FactorEffect, LevelEffect, RateInterval, SegmentSummary } from "./summary.ts";
+export { monteCarloError, type MonteCarloError } from "./monteCarloError.ts";
 export { sigmoid } from "./logistic.ts";
 
 // Statistics primitives (stats helper's files).

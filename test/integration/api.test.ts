@@ -199,7 +199,7 @@ forEachDatabase("API routes", (open) => {
     expect(csv.headers.get("content-type")).toMatch(/^text\/csv/);
     // RFC 4180 §2: CRLF line breaks; fields with commas or quotes are quoted, inner quotes doubled
     const lines = csv.text.split("\r\n");
-    expect(lines[0]).toBe("segment,status,combination,probability_best,rate_mean,rate_lower,rate_upper,title,title_value,photo,photo_value,button,button_value");
+    expect(lines[0]).toBe("segment,status,combination,probability_best,probability_best_se,probability_best_mc_lower,probability_best_mc_upper,rate_mean,rate_lower,rate_upper,title,title_value,photo,photo_value,button,button_value");
     expect(lines.at(-1)).toBe("");
     if (csv.text.includes("title=long")) expect(csv.text).toContain('"Fast, honest repairs, ""guaranteed"""');
     if (csv.text.includes("button=book")) expect(csv.text).toContain('"Book, now"');
