@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { averageEffects, CONTEXT_LIMIT } from "../../src/model/averageEffects.ts";
+import { averageEffects, CONTEXT_LIMIT, EFFECT_DRAW_LIMIT } from "../../src/model/averageEffects.ts";
 import { allowedCombinations } from "../../src/model/allowed.ts";
 import { buildDesign, combinationKey, createRng, foldCycle, initialState, parseSettings } from "../../src/model/index.ts";
 import { drawSamples } from "../../src/model/sampling.ts";
@@ -57,15 +57,15 @@ describe("average factor effects", () => {
         square += w * diff * diff;
       }
     }
-    const se = Math.sqrt((square - mean * mean) / M);
+    const se = Math.sqrt((square - mean * mean) / Math.min(M, EFFECT_DRAW_LIMIT));
     expect(Math.abs(effect.difference.mean - mean)).toBeLessThan(4 * se);
 
     const known = gaussian([-2, 0.4], [1e-6, 0.2]);
     const sharp = averageEffects(design, drawSamples(known, 2, M, createRng(5)), M, createRng(6))[0][1]!;
     const at = (p: number) => sigma(-2 + jStat.normal.inv(p, 0.4, 0.2)) - sigma(-2);
-    // Sample-quantile error at 2.5% with 2,000 draws is about 0.0016 here (√(q(1−q)/n)/density).
-    expect(Math.abs(sharp.difference.lower - at(0.025))).toBeLessThan(0.005);
-    expect(Math.abs(sharp.difference.upper - at(0.975))).toBeLessThan(0.005);
+    // Sample-quantile error at 2.5% with 500 draws is about 0.0033 here (√(q(1−q)/n)/density): 3 of them.
+    expect(Math.abs(sharp.difference.lower - at(0.025))).toBeLessThan(0.01);
+    expect(Math.abs(sharp.difference.upper - at(0.975))).toBeLessThan(0.01);
     let relative = 0;
     for (let j = 0; j < steps; j++) {
       const b = 0.4 - 6 * 0.2 + (j + 0.5) * hb;
@@ -75,7 +75,7 @@ describe("average factor effects", () => {
   });
 
   it("averages over drawn contexts when there are too many to list", () => {
-    // 2 × 5 × 5 × 5 = 250 combinations: f0 has 125 contexts > CONTEXT_LIMIT. Main effects only and
+    // 2 × 5 × 5 × 5 = 250 combinations: f0 has 125 contexts > CONTEXT_LIMIT (32). Main effects only and
     // a known θ, so the difference depends on the context only through the intercept shift; the
     // drawn average must match the exact average over all 125 contexts within a few percent.
     const design = page([2, 5, 5, 5], { interactions: [] });
