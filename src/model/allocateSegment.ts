@@ -176,8 +176,10 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
   const leaderCombo = cand.combos[order[0]];
   const leaderRate = rateFromScores(scoresFor(leaderCombo), predictorOf(leaderCombo));
   const bars = settleBars(settings, input.wasSettled === true);
-  let figures = { probabilityBest: cand.probabilityBest, draws: M, loss: expectedLoss(cand.bestScore, scoresFor(leaderCombo)) };
-  const lossFractionOf = (loss: number) => (leaderRate.mean > 0 ? loss / leaderRate.mean : Infinity);
+  let probabilityBest = cand.probabilityBest;
+  const drawsOf = new Float64Array(cand.keys.length).fill(M);
+  let loss = expectedLoss(cand.bestScore, scoresFor(leaderCombo));
+  const lossFractionOf = (value: number) => (leaderRate.mean > 0 ? value / leaderRate.mean : Infinity);
   const refine = refinementDraws({
     samples: M,
     leaderProbability: cand.probabilityBest[order[0]],
@@ -185,34 +187,45 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     nearBar: nearBar({
       leaderProbability: cand.probabilityBest[order[0]],
       leaderProbabilityError: monteCarloError(bars.probability, M).standardError,
-      lossFraction: lossFractionOf(figures.loss.value),
-      lossFractionError: lossFractionOf(figures.loss.standardError),
+      lossFraction: lossFractionOf(loss.value),
+      lossFractionError: lossFractionOf(loss.standardError),
     }, bars),
   });
-  if (refine > 0) {
-    const fresh = freshFigures(design, posterior, cand.keys, refine, meanTheta, rng);
-    figures = { probabilityBest: fresh.probabilityBest, draws: refine, loss: expectedLoss(fresh.bestScore, scoresFor(leaderCombo, fresh.samples, refine)) };
+  if (refine.draws > 0) {
+    const R = refine.draws;
+    const fresh = freshFigures(design, posterior, cand.keys, R, meanTheta, rng);
+    loss = expectedLoss(fresh.bestScore, scoresFor(leaderCombo, fresh.samples, R));
+    if (refine.scope === "all") {
+      probabilityBest = fresh.probabilityBest;
+      drawsOf.fill(R);
+    } else {
+      probabilityBest = cand.probabilityBest.slice();
+      probabilityBest[order[0]] = fresh.probabilityBest[order[0]];
+      drawsOf[order[0]] = R;
+    }
   }
 
-  const summarize = (c: Combination, key: string, probabilityBest: number): CombinationSummary => ({
+  const summarize = (c: Combination, key: string, p: number, draws: number): CombinationSummary => ({
     combination: key,
-    probabilityBest,
-    probabilityBestError: monteCarloError(probabilityBest, figures.draws),
+    probabilityBest: p,
+    probabilityBestError: monteCarloError(p, draws),
     rate: rateFromScores(scoresFor(c), predictorOf(c)),
   });
-  const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], figures.probabilityBest[i]));
+  const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], probabilityBest[i], drawsOf[i]));
   const leader = top[0];
   const baselineKey = combinationKey(design, design.baseline);
   const baselineAt = cand.keys.indexOf(baselineKey);
-  const baseline = summarize(design.baseline, baselineKey, baselineAt >= 0 ? figures.probabilityBest[baselineAt] : 0);
-  const lossFraction = lossFractionOf(figures.loss.value);
+  const baseline = baselineAt >= 0
+    ? summarize(design.baseline, baselineKey, probabilityBest[baselineAt], drawsOf[baselineAt])
+    : summarize(design.baseline, baselineKey, 0, M);
+  const lossFraction = lossFractionOf(loss.value);
   const summary: SegmentSummary = {
     segment,
     ...settledStatus(leader.probabilityBest, lossFraction, bars),
     leader,
     top,
-    expectedLoss: figures.loss.value,
-    expectedLossError: figures.loss.standardError,
+    expectedLoss: loss.value,
+    expectedLossError: loss.standardError,
     expectedLossFraction: lossFraction,
     baseline,
     effects: factorEffects(design, posterior, averageEffects(design, samples, M, rng)),

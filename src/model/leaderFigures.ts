@@ -12,12 +12,16 @@
  * draws are made, so its count on them is Binomial(R, p) exactly).
  *
  * Fresh draws cost a second scan, so they are made only when they change something:
- *   - the ranking is uncertain: the leader's count leads the runner-up's by less than NEAR_BAR_SE
- *     standard errors of the difference of two multinomial counts, √(x₁ + x₂ − (x₁ − x₂)²/M)
- *     (the bias is negligible otherwise: the choice would not change on other draws) → R = M;
  *   - a settle figure is within NEAR_BAR_SE standard errors of its bar (settleRule.ts) →
- *     R = REFINE_FACTOR·M (capped at REFINE_MAX_DRAWS, never below M): √8 ≈ 2.8 times less
- *     Monte-Carlo error exactly where the decision is made.
+ *     R = REFINE_FACTOR·M (capped at REFINE_MAX_DRAWS, never below M), and every reported
+ *     probability and the loss come from them: √8 ≈ 2.8 times less Monte-Carlo error exactly where
+ *     the decision is made;
+ *   - else, the ranking is uncertain: the leader's count leads the runner-up's by less than
+ *     NEAR_BAR_SE standard errors of the difference of two multinomial counts,
+ *     √(x₁ + x₂ − (x₁ − x₂)²/M) (otherwise the bias is negligible: the choice would not change on
+ *     other draws) → R = M/4 (at least 100), for the leader's figures only (its probability and the
+ *     loss of stopping on it). Early in a test nearly every segment is here, so this costs a quarter
+ *     scan, not a whole one; the leader's figure then carries the larger error of R draws, stated.
  * A clear leader far from both bars keeps the allocation's draws: the normal path costs nothing more.
  */
 import { comboTable, scanByClimbing, scanEnumerated } from "./bestCombination.ts";
@@ -29,6 +33,9 @@ import { NEAR_BAR_SE } from "./settleRule.ts";
 
 export const REFINE_FACTOR = 8;
 export const REFINE_MAX_DRAWS = 32_000;
+/** Fresh draws for an uncertain ranking, as a share of M (at least RANKING_MIN_DRAWS). */
+export const RANKING_SHARE = 0.25;
+export const RANKING_MIN_DRAWS = 100;
 
 export interface RefinementInput {
   /** Draws the leader was chosen on. */
@@ -39,14 +46,22 @@ export interface RefinementInput {
   nearBar: boolean;
 }
 
-/** Fresh draws the figures need: 0, M, or REFINE_FACTOR·M (see the file comment). */
-export function refinementDraws(input: RefinementInput): number {
+export interface Refinement {
+  /** Fresh draws to make (0: none). */
+  draws: number;
+  /** Every reported figure from them (near a bar), or only the leader's (uncertain ranking). */
+  scope: "all" | "leader";
+}
+
+/** The fresh draws the figures need (see the file comment). */
+export function refinementDraws(input: RefinementInput): Refinement {
   const M = input.samples;
-  if (input.nearBar) return Math.max(M, Math.min(REFINE_FACTOR * M, REFINE_MAX_DRAWS));
+  if (input.nearBar) return { draws: Math.max(M, Math.min(REFINE_FACTOR * M, REFINE_MAX_DRAWS)), scope: "all" };
   const x1 = input.leaderProbability * M;
   const x2 = input.runnerUpProbability * M;
   const sd = Math.sqrt(Math.max(0, x1 + x2 - ((x1 - x2) * (x1 - x2)) / M));
-  return x1 - x2 < NEAR_BAR_SE * sd ? M : 0;
+  const uncertain = x1 - x2 < NEAR_BAR_SE * sd;
+  return { draws: uncertain ? Math.max(RANKING_MIN_DRAWS, Math.ceil(RANKING_SHARE * M)) : 0, scope: "leader" };
 }
 
 export interface FreshFigures {
