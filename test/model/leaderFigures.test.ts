@@ -106,12 +106,16 @@ describe("probabilities of being best and their Monte-Carlo error", () => {
     const M = 1000;
     const seeds = 400;
     let reported = 0;
+    let squares = 0;
     let variance = 0;
+    let stated = 0;
     let naive = 0;
     for (let seed = 1; seed <= seeds; seed++) {
       const leader = round(tie, g, seed).leader;
       reported += leader.probabilityBest;
+      squares += leader.probabilityBest ** 2;
       variance += 0.25 / leader.probabilityBestError.draws;
+      stated += leader.probabilityBestError.standardError ** 2;
       const draws = drawSamples(g, 2, M, createRng(seed));
       let wins = 0;
       for (let s = 0; s < M; s++) if (draws[M + s] > 0) wins++;
@@ -121,6 +125,10 @@ describe("probabilities of being best and their Monte-Carlo error", () => {
     const naiveSe = Math.sqrt(0.25 / M / seeds);
     console.log(`tie: reported mean ${(reported / seeds).toFixed(4)} (±${se.toFixed(4)}), same-draws mean ${(naive / seeds).toFixed(4)} (±${naiveSe.toFixed(4)})`);
     expect(Math.abs(reported / seeds - 0.5)).toBeLessThan(3 * se);
+    // The fresh draws' stated error is the spread seen over seeds here too (±15%, as above).
+    const observedSd = Math.sqrt((squares - reported ** 2 / seeds) / (seeds - 1));
+    expect(observedSd / Math.sqrt(stated / seeds)).toBeGreaterThan(0.85);
+    expect(observedSd / Math.sqrt(stated / seeds)).toBeLessThan(1.15);
     // The check has the power to see the bias it guards against.
     expect(naive / seeds - 0.5).toBeGreaterThan(3 * se);
   });
