@@ -200,6 +200,7 @@ export function effectChart(effect: FactorEffect, width: number): SVGElement {
 /** A difference of rates as signed percentage points: "+1.2 pt". */
 function points(v: number): string {
   const p = v * 100;
+  if (p === 0) return "0 pt";
   const digits = Math.abs(p) >= 10 ? 0 : Math.abs(p) >= 1 ? 1 : 2;
   return `${p > 0 ? "+" : p < 0 ? "−" : ""}${Math.abs(p).toFixed(digits)} pt`;
 }

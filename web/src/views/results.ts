@@ -307,11 +307,14 @@ function effectsCard(seg: SegmentReport, ui: UiState, width: number): HTMLElemen
   );
 }
 
-/** "helps: +6.40 points (4.81 to 8.00), +28.1 % relative" for one level's average effect. */
+/** "helps: +6.4 points (4.8 to 8.0), +28 % relative" for one level's average effect, to the precision its interval supports. */
 function effectText(l: SegmentReport["effects"][number]["levels"][number]): string {
   const d = l.difference;
   if (!d || !l.relative) return "never shown together with the first level, so it cannot be compared";
-  return `${effectWord(d)}: ${pointsOf(d.mean, true, false)} points (95 % interval ${pointsOf(d.lower, true, false)} to ${pointsOf(d.upper, true, false)}), ${signed(l.relative.mean)} relative`;
+  const digits = (d.upper - d.lower) * 100 >= 1 ? 1 : 2;
+  const pts = (v: number) => `${v > 0 ? "+" : v < 0 ? "−" : ""}${Math.abs(v * 100).toFixed(digits)}`;
+  const rel = l.relative.mean * 100;
+  return `${effectWord(d)}: ${pts(d.mean)} points (95 % interval ${pts(d.lower)} to ${pts(d.upper)}), ${rel > 0 ? "+" : rel < 0 ? "−" : ""}${Math.abs(rel).toFixed(Math.abs(rel) >= 10 ? 0 : 1)} % relative`;
 }
 
 function crossCheckCard(seg: SegmentReport): HTMLElement {
