@@ -12,6 +12,12 @@
  * facetwise's default comes from the simulator (settings.ts). A settled segment (summary.ts)
  * stops exploring: its Thompson part goes to the leader alone, leaving the exploration floor and
  * the baseline share (DESIGN.md "Settled").
+ *
+ * The reported probabilities of being best and the expected loss come from the same draws unless
+ * the ranking is uncertain or a figure is near a settle bar; then from fresh draws
+ * (leaderFigures.ts), so the leader's figure carries no winner's curse and the decision has more
+ * draws. The ranking, the allocation and retirement always use the first draws. Every probability
+ * carries its Monte-Carlo error (monteCarloError.ts); the settle rule has hysteresis (settleRule.ts).
  */
 import { type Allocation, frozenAllocation, mixAllocation } from "./allocation.ts";
 import { comboTable, scanByClimbing, scanEnumerated, scoresOf } from "./bestCombination.ts";
@@ -24,7 +30,11 @@ import { updateRetirement, type RetiredEntry } from "./retirement.ts";
 import type { Rng } from "./rng.ts";
 import { drawSamples, temperDraws } from "./sampling.ts";
 import type { PageSettings } from "./settings.ts";
-import { type CombinationSummary, expectedLoss, factorEffects, rateBounds, rateFromScores, type SegmentSummary, settledStatus } from "./summary.ts";
+import { averageEffects } from "./averageEffects.ts";
+import { freshFigures, refinementDraws } from "./leaderFigures.ts";
+import { monteCarloError } from "./monteCarloError.ts";
+import { nearBar, settleBars, settledStatus } from "./settleRule.ts";
+import { type CombinationSummary, expectedLoss, factorEffects, rateBounds, rateFromScores, type SegmentSummary } from "./summary.ts";
 
 export interface SegmentRoundInput {
   design: Design;
@@ -39,6 +49,8 @@ export interface SegmentRoundInput {
   /** Currently retired combinations of this segment, by key. */
   active: Map<string, RetiredEntry>;
   counters: Map<string, number>;
+  /** The segment's status after the previous round: a settled segment is held to the laxer unsettle bars (settleRule.ts). */
+  wasSettled?: boolean;
 }
 
 export interface SegmentRound {
@@ -83,10 +95,10 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     writeActiveFeatures(design, c, activeIdx, 0);
     return linearPredictor(posterior, d, activeIdx, scratch);
   };
-  const scoresFor = (c: Combination): Float64Array => {
+  const scoresFor = (c: Combination, draws = samples, count = M): Float64Array => {
     writeActiveFeatures(design, c, activeIdx, 0);
-    const out = new Float64Array(M);
-    scoresOf(activeIdx, 0, activeIdx.length, samples, M, out);
+    const out = new Float64Array(count);
+    scoresOf(activeIdx, 0, activeIdx.length, draws, count, out);
     return out;
   };
   const meanScoreOf = (c: Combination): number => {
@@ -162,28 +174,64 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     };
   }
 
-  const summarize = (c: Combination, key: string, probabilityBest: number): CombinationSummary => ({
+  // Report figures: from the allocation's draws, or from fresh ones where the ranking is uncertain
+  // or a settle figure is near its bar (leaderFigures.ts, settleRule.ts).
+  const leaderCombo = cand.combos[order[0]];
+  const leaderRate = rateFromScores(scoresFor(leaderCombo), predictorOf(leaderCombo));
+  const bars = settleBars(settings, input.wasSettled === true);
+  let probabilityBest = cand.probabilityBest;
+  const drawsOf = new Float64Array(cand.keys.length).fill(M);
+  let loss = expectedLoss(cand.bestScore, scoresFor(leaderCombo));
+  const lossFractionOf = (value: number) => (leaderRate.mean > 0 ? value / leaderRate.mean : Infinity);
+  const refine = refinementDraws({
+    samples: M,
+    leaderProbability: cand.probabilityBest[order[0]],
+    runnerUpProbability: order.length > 1 ? cand.probabilityBest[order[1]] : 0,
+    nearBar: nearBar({
+      leaderProbability: cand.probabilityBest[order[0]],
+      leaderProbabilityError: monteCarloError(bars.probability, M).standardError,
+      lossFraction: lossFractionOf(loss.value),
+      lossFractionError: lossFractionOf(loss.standardError),
+    }, bars),
+  });
+  if (refine.draws > 0) {
+    const R = refine.draws;
+    const fresh = freshFigures(design, posterior, cand.keys, R, meanTheta, rng);
+    loss = expectedLoss(fresh.bestScore, scoresFor(leaderCombo, fresh.samples, R));
+    if (refine.scope === "all") {
+      probabilityBest = fresh.probabilityBest;
+      drawsOf.fill(R);
+    } else {
+      probabilityBest = cand.probabilityBest.slice();
+      probabilityBest[order[0]] = fresh.probabilityBest[order[0]];
+      drawsOf[order[0]] = R;
+    }
+  }
+
+  const summarize = (c: Combination, key: string, p: number, draws: number): CombinationSummary => ({
     combination: key,
-    probabilityBest,
+    probabilityBest: p,
+    probabilityBestError: monteCarloError(p, draws),
     rate: rateFromScores(scoresFor(c), predictorOf(c)),
   });
-  const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], cand.probabilityBest[i]));
+  const top = order.slice(0, TOP).map((i) => summarize(cand.combos[i], cand.keys[i], probabilityBest[i], drawsOf[i]));
   const leader = top[0];
-  const leaderCombo = cand.combos[order[0]];
   const baselineKey = combinationKey(design, design.baseline);
   const baselineAt = cand.keys.indexOf(baselineKey);
-  const baseline = summarize(design.baseline, baselineKey, baselineAt >= 0 ? cand.probabilityBest[baselineAt] : 0);
-  const loss = expectedLoss(cand.bestScore, scoresFor(leaderCombo));
-  const lossFraction = leader.rate.mean > 0 ? loss / leader.rate.mean : Infinity;
+  const baseline = baselineAt >= 0
+    ? summarize(design.baseline, baselineKey, probabilityBest[baselineAt], drawsOf[baselineAt])
+    : summarize(design.baseline, baselineKey, 0, M);
+  const lossFraction = lossFractionOf(loss.value);
   const summary: SegmentSummary = {
     segment,
-    ...settledStatus(leader.probabilityBest, lossFraction, settings),
+    ...settledStatus(leader.probabilityBest, lossFraction, bars),
     leader,
     top,
-    expectedLoss: loss,
+    expectedLoss: loss.value,
+    expectedLossError: loss.standardError,
     expectedLossFraction: lossFraction,
     baseline,
-    effects: factorEffects(design, posterior),
+    effects: factorEffects(design, posterior, averageEffects(design, samples, M, rng)),
     segmentSpread: input.segmentSpread,
   };
 

@@ -108,7 +108,12 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   const reinstatedBySegment = new Map<string, Map<string, string>>();
   const newlyRetired: RetiredEntry[] = [];
   const withPooled = input.pooled !== false || own.length < requested.length;
-  for (const segment of withPooled ? [POOLED, ...own] : own) {
+  // Settle hysteresis (settleRule.ts): each segment's status after the last cycle goes in, the new one comes out.
+  const wasSettled = new Set(folded.state.settled ?? []);
+  const settled: string[] = [];
+  const rounds = withPooled ? [POOLED, ...own] : own;
+  for (const segment of wasSettled) if (!rounds.includes(segment)) settled.push(segment); // not recomputed: keeps its status
+  for (const segment of rounds) {
     const round = allocateSegment({
       design,
       settings,
@@ -120,7 +125,9 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
       frozen: input.frozen === true,
       active: activeBySegment.get(segment) ?? new Map(),
       counters: folded.state.dominated.get(segment) ?? new Map(),
+      wasSettled: wasSettled.has(segment),
     });
+    if (round.summary.status === "settled") settled.push(segment);
     allocations[segment] = round.allocation;
     summaries[segment] = round.summary;
     if (round.counters.size > 0) dominated.set(segment, round.counters);
@@ -140,5 +147,5 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
   });
   retired.push(...newlyRetired);
 
-  return { state: { ...folded.state, dominated }, allocations, summaries, retired, skipped: folded.skipped };
+  return { state: { ...folded.state, dominated, settled }, allocations, summaries, retired, skipped: folded.skipped };
 }

@@ -28,7 +28,8 @@ export { pickFrom, predictedOf, propensityOf, type Allocation } from "./allocati
 export { combinationRates } from "./combinationRates.ts";
 export { quantileInPlace } from "./quantile.ts";
 export type { RetiredEntry } from "./retirement.ts";
-export type { CombinationSummary, FactorEffect, RateInterval, SegmentSummary } from "./summary.ts";
+export type { CombinationSummary, FactorEffect, LevelEffect, RateInterval, SegmentSummary } from "./summary.ts";
+export { monteCarloError, type MonteCarloError } from "./monteCarloError.ts";
 export { sigmoid } from "./logistic.ts";
 
 // Statistics primitives (stats helper's files).

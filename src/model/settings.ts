@@ -47,6 +47,13 @@
  * Smaller fixed spreads pool faster but leave runs stuck where one segment truly differs
  * (three-factor's social segment: runs of 2,678 and 2,376); the learned spread pools where the
  * segments agree and lets go where they do not, and was best or near best on every scenario.
+ *
+ * unsettleProbability 0.9 and unsettleLossFraction 0.015 are the lower bars a settled segment must
+ * cross to explore again (settleRule.ts). 0.9 is about 7 Monte-Carlo standard errors below 0.95 at
+ * M = 1,000 (√(0.95·0.05/1000) = 0.0069), so draw noise alone never unsettles, while a leader that
+ * truly lost ground (a one-in-ten chance that another combination is best) does; 1.5% is half the
+ * settle bar again above it, the margin issue 10 suggested. Both are common practice for a
+ * hysteresis band, no source.
  */
 import { z } from "zod";
 import { fail } from "../errors.ts";
@@ -61,6 +68,8 @@ export const settingsSchema = z.strictObject({
   baselineShare: probability.lt(1).default(0.01),
   settleProbability: z.number().gt(0).max(1).default(0.95),
   settleLossFraction: z.number().min(0).default(0.01),
+  unsettleProbability: z.number().gt(0).max(1).default(0.9),
+  unsettleLossFraction: z.number().min(0).default(0.015),
   retireProbability: probability.lt(1).default(0.001),
   retireAfterFolds: z.number().int().min(1).default(3),
   halfLifeDays: z.number().positive().nullable().default(null),

@@ -59,6 +59,8 @@ export interface ModelState {
   segmentSpread: number | null;
   /** The prior scales' multiples the last fold cycle learned (priorScaleSearch.ts); null before the first. */
   priorScales: PriorScales | null;
+  /** Segments settled after the last cycle, for the settle rule's hysteresis (settleRule.ts); absent = none. */
+  settled?: string[];
 }
 
 /** A segment's data with its site computed at `mode`. */
@@ -94,6 +96,8 @@ interface SerializedState {
   dominated: Record<string, Record<string, number>>;
   segmentSpread: number | null;
   priorScales?: PriorScales | null;
+  /** Absent in snapshots written before the settle rule had hysteresis. */
+  settled?: string[];
 }
 
 export function serializeState(state: ModelState): SerializedState {
@@ -102,7 +106,7 @@ export function serializeState(state: ModelState): SerializedState {
     const { counts } = data;
     segments.push({ segment, combinations: counts.keys.slice(), n: Array.from(counts.n), k: Array.from(counts.k), mode: Array.from(data.mode), folds: data.site.folds });
   }
-  return { version: 2, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: serializeDominated(state.dominated), segmentSpread: state.segmentSpread, priorScales: state.priorScales };
+  return { version: 2, featureNames: state.featureNames.slice(), lastFoldAt: state.lastFoldAt, segments, dominated: serializeDominated(state.dominated), segmentSpread: state.segmentSpread, priorScales: state.priorScales, settled: state.settled ?? [] };
 }
 
 function serializeDominated(dominated: ModelState["dominated"]): Record<string, Record<string, number>> {
@@ -119,7 +123,7 @@ export function isLegacyState(json: unknown): boolean {
 }
 
 /** The fields every format version shares, checked. */
-export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "lastFoldAt" | "dominated" | "segmentSpread" | "priorScales"> {
+export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "lastFoldAt" | "dominated" | "segmentSpread" | "priorScales" | "settled"> {
   const s = json as Partial<SerializedState>;
   if (s === null || typeof s !== "object") throw bad("not an object");
   if (!Array.isArray(s.featureNames) || !s.featureNames.every((x) => typeof x === "string")) throw bad("featureNames missing");
@@ -141,7 +145,9 @@ export function stateHeader(json: unknown): Pick<ModelState, "featureNames" | "l
     throw bad("priorScales must hold positive multiples main and interaction, or be null");
   }
   const priorScales = scales === null ? null : { main: scales.main, interaction: scales.interaction };
-  return { featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt ?? null, dominated, segmentSpread, priorScales };
+  const settled = s.settled ?? [];
+  if (!Array.isArray(settled) || !settled.every((x) => typeof x === "string")) throw bad("settled must be a list of segment keys");
+  return { featureNames: s.featureNames.slice(), lastFoldAt: s.lastFoldAt ?? null, dominated, segmentSpread, priorScales, settled: settled.slice() };
 }
 
 /** Reads a version-2 snapshot for `design` (the design it was written for). */

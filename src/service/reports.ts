@@ -8,8 +8,8 @@
  * Shape: the contract's "Report JSON shape".
  */
 import type { Pool } from "pg";
-import { calibration, crossCheck, LATEST_PICKS, MAX_BINS, PICKS_PER_BIN } from "../model/index.ts";
-import type { Allocation, CombinationSummary, SegmentSummary } from "../model/index.ts";
+import { calibration, crossCheck, LATEST_PICKS, MAX_BINS, monteCarloError, PICKS_PER_BIN } from "../model/index.ts";
+import type { Allocation, CombinationSummary, FactorEffect, SegmentSummary } from "../model/index.ts";
 import { loadRetired, loadSnapshot } from "../store/repositories/folds.ts";
 import { allocationHistory, calibrationBins, pickCounts, segmentContexts, type CountRow } from "../store/repositories/reports.ts";
 import type { StoredPage } from "../store/repositories/pages.ts";
@@ -32,7 +32,7 @@ export interface SegmentReport {
   visitors: number; conversions: number; folded: number;
   status: "waiting" | "exploring" | "settled"; settledBy: "probability" | "loss" | null;
   leader: CombinationReport | null; baseline: CombinationReport | null; top: CombinationReport[];
-  expectedLoss: number | null; expectedLossFraction: number | null;
+  expectedLoss: number | null; expectedLossError: number | null; expectedLossFraction: number | null;
   effects: SegmentSummary["effects"];
   segmentSpread: number | null;
   retired: { combination: string; reason: string; figures: Record<string, unknown>; retiredAt: string; reinstatedAt: string | null; reinstateReason: string | null }[];
@@ -66,6 +66,8 @@ export class ReportService {
       const bins = await calibrationBins(this.pool, page.id, { maxBins: MAX_BINS, perBin: PICKS_PER_BIN, latest: LATEST_PICKS });
       const current = new Map(history.filter((h) => h.version === page.modelVersion).map((h) => [h.segment, h.allocation as Allocation]));
 
+      // Summaries stored before issue 10 carry no Monte-Carlo error: it is the binomial one of the page's draws.
+      const samples = settingsOf(page).samples;
       const segmentKeys = [...new Set([...contexts.keys(), ...counts.map((c) => c.segment).filter((s) => s !== "*")])];
       const build = (segment: string, rows: CountRow[]): SegmentReport => {
         const summary = summaries[segment] as SegmentSummary | undefined;
@@ -77,7 +79,8 @@ export class ReportService {
           observed.set(r.combination, arm);
         }
         const describe = (c: CombinationSummary | undefined): CombinationReport | null => c ? {
-          ...c, levels: levelsOf(page, c.combination),
+          ...c, probabilityBestError: c.probabilityBestError ?? monteCarloError(c.probabilityBest, samples),
+          levels: levelsOf(page, c.combination),
           visitors: observed.get(c.combination)?.visitors ?? 0, conversions: observed.get(c.combination)?.conversions ?? 0,
         } : null;
         const leader = describe(summary?.leader);
@@ -87,8 +90,9 @@ export class ReportService {
           visitors: sum(rows, "visitors"), conversions: sum(rows, "conversions"), folded: sum(rows, "folded"),
           status: summary ? summary.status : "waiting", settledBy: summary?.settledBy ?? null,
           leader, baseline, top: (summary?.top ?? []).map((c) => describe(c)!),
-          expectedLoss: summary?.expectedLoss ?? null, expectedLossFraction: summary?.expectedLossFraction ?? null,
-          effects: summary?.effects ?? [],
+          expectedLoss: summary?.expectedLoss ?? null, expectedLossError: summary?.expectedLossError ?? null,
+          expectedLossFraction: summary?.expectedLossFraction ?? null,
+          effects: (summary?.effects ?? []).map(upgradeEffect),
           segmentSpread: summary?.segmentSpread ?? null,
           retired: retired.filter((r) => r.segment === segment).map((r) => {
             const { reinstateReason, ...figures } = r.figures as Record<string, unknown>;
@@ -122,6 +126,18 @@ export class ReportService {
       throw asServiceError(error);
     }
   }
+}
+
+/** A factor effect stored before issue 10 (odds ratios only) in today's shape, with no average effect. */
+function upgradeEffect(effect: FactorEffect): FactorEffect {
+  return {
+    ...effect,
+    levels: effect.levels.map((l) => {
+      if ("oddsRatioAtFirstLevels" in l) return l;
+      const old = l as unknown as { level: string; oddsRatio: number; lower: number; upper: number };
+      return { level: old.level, difference: null, relative: null, contexts: 0, oddsRatioAtFirstLevels: { estimate: old.oddsRatio, lower: old.lower, upper: old.upper } };
+    }),
+  };
 }
 
 const sum = (rows: CountRow[], field: "visitors" | "conversions" | "folded" | "pending") => rows.reduce((s, r) => s + r[field], 0);

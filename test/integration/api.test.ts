@@ -163,11 +163,22 @@ forEachDatabase("API routes", (open) => {
     const search = r.body.segments.find((s: { segment: string }) => s.segment === "source=search");
     expect(search.context).toEqual({ source: "search" });
     expect(["exploring", "settled"]).toContain(search.status);
-    expect(search.leader.probabilityBest).toBeGreaterThan(0);
+    // the probability of being best with its Monte-Carlo error: binomial standard error of its draws, Wilson bounds around it
+    const pb = search.leader.probabilityBest;
+    const mc = search.leader.probabilityBestError;
+    expect(mc.standardError).toBeCloseTo(Math.sqrt((pb * (1 - pb)) / mc.draws), 12);
+    expect(mc.lower).toBeLessThanOrEqual(pb);
+    expect(mc.upper).toBeGreaterThan(0);
+    expect(search.expectedLossError).toBeGreaterThanOrEqual(0);
     expect(search.leader.rate.lower).toBeLessThanOrEqual(search.leader.rate.mean);
     expect(search.leader.rate.mean).toBeLessThanOrEqual(search.leader.rate.upper);
     expect(search.leader.levels.title.value).toMatch(/repairs/);
     expect(search.effects.map((e: { factor: string }) => e.factor)).toEqual(["title", "photo", "button"]);
+    const level = search.effects[0].levels[0];
+    expect(level.difference.lower).toBeLessThanOrEqual(level.difference.mean);
+    expect(level.difference.mean).toBeLessThanOrEqual(level.difference.upper);
+    expect(level.contexts).toBeGreaterThan(0);
+    expect(level.oddsRatioAtFirstLevels.estimate).toBeGreaterThan(0);
     // the learned spread lies on the grid: a quarter to four times the setting (spreadSearch.ts)
     expect(search.segmentSpread).toBeGreaterThanOrEqual(0.25 * r.body.settings.segmentSpread - 1e-12);
     expect(search.segmentSpread).toBeLessThanOrEqual(4 * r.body.settings.segmentSpread + 1e-12);
@@ -199,7 +210,7 @@ forEachDatabase("API routes", (open) => {
     expect(csv.headers.get("content-type")).toMatch(/^text\/csv/);
     // RFC 4180 §2: CRLF line breaks; fields with commas or quotes are quoted, inner quotes doubled
     const lines = csv.text.split("\r\n");
-    expect(lines[0]).toBe("segment,status,combination,probability_best,rate_mean,rate_lower,rate_upper,title,title_value,photo,photo_value,button,button_value");
+    expect(lines[0]).toBe("segment,status,combination,probability_best,probability_best_se,probability_best_mc_lower,probability_best_mc_upper,rate_mean,rate_lower,rate_upper,title,title_value,photo,photo_value,button,button_value");
     expect(lines.at(-1)).toBe("");
     if (csv.text.includes("title=long")) expect(csv.text).toContain('"Fast, honest repairs, ""guaranteed"""');
     if (csv.text.includes("button=book")) expect(csv.text).toContain('"Book, now"');

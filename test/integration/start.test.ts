@@ -77,7 +77,7 @@ it("starts, prints the URL and token once, seeds the demo, serves, and stops cle
     // facetwise export on the stopped server's data: RFC 4180 CSV on stdout, exit 0
     const csv = await run(["export", "bike-repair-demo", "--format", "csv", "--data", dataDir]);
     expect(csv.code).toBe(0);
-    expect(csv.stdout.split("\r\n")[0]).toMatch(/^segment,status,combination,probability_best,rate_mean,rate_lower,rate_upper,headline,headline_value,/);
+    expect(csv.stdout.split("\r\n")[0]).toMatch(/^segment,status,combination,probability_best,probability_best_se,probability_best_mc_lower,probability_best_mc_upper,rate_mean,rate_lower,rate_upper,headline,headline_value,/);
     // an error is one clear line on stderr and a non-zero exit
     const missing = await run(["export", "no-such-page", "--data", dataDir]);
     expect(missing.code).toBe(1);

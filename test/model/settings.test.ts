@@ -6,10 +6,11 @@ describe("page settings", () => {
   it("fills every default from the contract's settings table", () => {
     // Values from the settings table of the project contract (not an outside source), except the
     // simulator-tuned values (segmentSpread, explorationFloor, baselineShare, prior scales) and the
-    // added segmentInterceptSpread and thompsonScale — see the doc comment of settings.ts for the runs behind them.
+    // added segmentInterceptSpread, thompsonScale and the unsettle bars (issue 10) — see the doc comment of settings.ts for the runs behind them.
     expect(parseSettings({})).toEqual({
       attributionWindowHours: 24, assignmentHours: 720, foldIntervalSeconds: 3600, explorationFloor: 0.01,
-      baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01, retireProbability: 0.001,
+      baselineShare: 0.01, settleProbability: 0.95, settleLossFraction: 0.01,
+      unsettleProbability: 0.9, unsettleLossFraction: 0.015, retireProbability: 0.001,
       retireAfterFolds: 3, halfLifeDays: null, segmentSpread: 0.1, segmentInterceptSpread: 1, priorInterceptMean: -3, priorInterceptScale: 2,
       priorMainScale: 0.25, priorInteractionScale: 0.1, thompsonScale: 0.6, samples: 1000, maxSegments: 200,
       // public-route rate limits (issue 11): our own choice, common practice, no source

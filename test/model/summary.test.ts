@@ -3,7 +3,7 @@ import { combinationKey, foldCycle, initialState, parseSettings } from "../../sr
 import { jStat, page } from "./engineFixtures.ts";
 
 describe("segment summary", () => {
-  it("reports factor effects as odds ratios matching Woolf's interval under a flat prior", () => {
+  it("reports the odds ratio at first levels matching Woolf's interval under a flat prior", () => {
     // Woolf (1955), Ann. Hum. Genet. 19: log OR ± z·√(1/a + 1/b + 1/c + 1/d). With a flat prior and
     // plenty of data the Laplace posterior of the main effect reproduces it (z from jStat).
     const design = page([2, 2], { interactions: [] });
@@ -23,12 +23,16 @@ describe("segment summary", () => {
     const z = jStat.normal.inv(0.975, 0, 1);
     const level = effect.levels[0];
     expect(level.level).toBe("l1");
-    expect(Math.abs(Math.log(level.oddsRatio) - logOr)).toBeLessThan(0.01);
-    expect(Math.abs(Math.log(level.lower) - (logOr - z * se))).toBeLessThan(0.01);
-    expect(Math.abs(Math.log(level.upper) - (logOr + z * se))).toBeLessThan(0.01);
-    // f1 has no effect in these data: its odds ratio interval straddles 1.
-    expect(out.summaries.s.effects[1].levels[0].lower).toBeLessThan(1);
-    expect(out.summaries.s.effects[1].levels[0].upper).toBeGreaterThan(1);
+    const or = level.oddsRatioAtFirstLevels;
+    expect(Math.abs(Math.log(or.estimate) - logOr)).toBeLessThan(0.01);
+    expect(Math.abs(Math.log(or.lower) - (logOr - z * se))).toBeLessThan(0.01);
+    expect(Math.abs(Math.log(or.upper) - (logOr + z * se))).toBeLessThan(0.01);
+    // f1 has no effect in these data: its odds ratio interval straddles 1, its average difference 0.
+    const f1 = out.summaries.s.effects[1].levels[0];
+    expect(f1.oddsRatioAtFirstLevels.lower).toBeLessThan(1);
+    expect(f1.oddsRatioAtFirstLevels.upper).toBeGreaterThan(1);
+    expect(f1.difference!.lower).toBeLessThan(0);
+    expect(f1.difference!.upper).toBeGreaterThan(0);
   });
 
   it("computes expected loss against a numerical integral for two Beta-like arms", () => {

@@ -1,12 +1,12 @@
 /**
  * Charts drawn as SVG from the report's own numbers: allocation over time (stacked shares), the
- * 95 % intervals of the top combinations, and each factor's level effects as odds ratios. Each
+ * 95 % intervals of the top combinations, and each factor's average level effects in percentage points. Each
  * chart is drawn at the pixel width of its container so text stays readable on a phone, carries
  * numbers or words on the marks themselves (colour is never the only carrier), and has a text
  * equivalent: an aria description here and a table beside it in the view.
  */
 import { s } from "./dom.ts";
-import { comboShort, pct, ratio } from "./format.ts";
+import { comboShort, pct } from "./format.ts";
 import type { AllocationPoint, CombinationReport, FactorEffect } from "./types.ts";
 
 /** Series colours: distinct in hue and lightness; bands also carry their number as text. */
@@ -156,47 +156,58 @@ export function intervalChart(combos: CombinationReport[], leaderKey: string | n
   return svg;
 }
 
-/** Odds ratios on a log scale around 1 (no effect), one row per level, the reference level at 1. */
+/** Average effects in percentage points around 0 (no effect), one row per level, the reference level at 0. */
 export function effectChart(effect: FactorEffect, width: number): SVGElement {
   const rowH = 24;
   const labelW = Math.min(150, Math.floor(width * 0.34));
   const right = 14;
   const top = 6;
   const axisH = 22;
-  const rows = [{ level: effect.reference, oddsRatio: 1, lower: 1, upper: 1, reference: true }, ...effect.levels.map((l) => ({ ...l, reference: false }))];
+  const rows = [
+    { level: effect.reference, d: { mean: 0, lower: 0, upper: 0 }, reference: true },
+    ...effect.levels.map((l) => ({ level: l.level, d: l.difference, reference: false })),
+  ];
   const height = top + rows.length * rowH + axisH;
   const plotW = Math.max(60, width - labelW - right);
-  const extent = Math.max(1.25, ...rows.flatMap((r) => [r.upper, 1 / r.lower]).filter(Number.isFinite));
-  const lim = Math.log(Math.min(extent * 1.1, 20));
-  const x = (or: number) => labelW + ((Math.log(or) + lim) / (2 * lim)) * plotW;
+  const lim = 1.1 * Math.max(0.001, ...rows.flatMap((r) => (r.d ? [Math.abs(r.d.lower), Math.abs(r.d.upper)] : [])).filter(Number.isFinite));
+  const x = (v: number) => labelW + ((Math.max(-lim, Math.min(lim, v)) + lim) / (2 * lim)) * plotW;
   const svg = svgRoot(
     width,
     height,
-    `Effect of each level of ${effect.factor} compared with ${effect.reference}, as odds ratios with 95 % intervals: ` +
-      effect.levels.map((l) => `${l.level} ${ratio(l.oddsRatio)} (${ratio(l.lower)} to ${ratio(l.upper)}), ${effectWord(l)}`).join("; "),
+    `Change in conversion rate from switching ${effect.factor} from ${effect.reference} to each level, in percentage points with 95 % intervals: ` +
+      effect.levels.map((l) => (l.difference
+        ? `${l.level} ${points(l.difference.mean)} (${points(l.difference.lower)} to ${points(l.difference.upper)}), ${effectWord(l.difference)}`
+        : `${l.level} not comparable`)).join("; "),
   );
-  svg.appendChild(s("line", { x1: x(1), x2: x(1), y1: top, y2: top + rows.length * rowH, class: "axis-one" }));
-  for (const t of [Math.exp(-lim), 1, Math.exp(lim)]) {
-    svg.appendChild(text(x(t), height - 6, `×${ratio(t)}`, { "text-anchor": t === 1 ? "middle" : t < 1 ? "start" : "end", class: "axis" }));
+  svg.appendChild(s("line", { x1: x(0), x2: x(0), y1: top, y2: top + rows.length * rowH, class: "axis-one" }));
+  for (const t of [-lim, 0, lim]) {
+    svg.appendChild(text(x(t), height - 6, points(t), { "text-anchor": t === 0 ? "middle" : t < 0 ? "start" : "end", class: "axis" }));
   }
   rows.forEach((r, i) => {
     const cy = top + i * rowH + rowH / 2;
     svg.appendChild(text(labelW - 8, cy + 4, clip(r.level, labelW - 12), { "text-anchor": "end", class: "rank" }));
-    if (r.reference) {
-      svg.appendChild(text(x(1) + 8, cy + 4, "reference", { class: "axis" }));
-      svg.appendChild(s("circle", { cx: x(1), cy, r: 4, class: "dot ref" }));
+    if (r.reference || !r.d) {
+      svg.appendChild(text(x(0) + 8, cy + 4, r.reference ? "reference" : "not comparable", { class: "axis" }));
+      svg.appendChild(s("circle", { cx: x(0), cy, r: 4, class: "dot ref" }));
       return;
     }
-    const clamp = (v: number) => Math.min(Math.exp(lim), Math.max(Math.exp(-lim), v));
-    svg.appendChild(s("line", { x1: x(clamp(r.lower)), x2: x(clamp(r.upper)), y1: cy, y2: cy, class: "whisker" }));
-    svg.appendChild(s("circle", { cx: x(clamp(r.oddsRatio)), cy, r: 5, class: `dot effect-${effectWord(r)}` }));
+    svg.appendChild(s("line", { x1: x(r.d.lower), x2: x(r.d.upper), y1: cy, y2: cy, class: "whisker" }));
+    svg.appendChild(s("circle", { cx: x(r.d.mean), cy, r: 5, class: `dot effect-${effectWord(r.d)}` }));
   });
   return svg;
 }
 
-/** Plain reading of an effect interval: it helps or hurts only when the whole interval says so. */
+/** A difference of rates as signed percentage points: "+1.2 pt". */
+function points(v: number): string {
+  const p = v * 100;
+  if (p === 0) return "0 pt";
+  const digits = Math.abs(p) >= 10 ? 0 : Math.abs(p) >= 1 ? 1 : 2;
+  return `${p > 0 ? "+" : p < 0 ? "−" : ""}${Math.abs(p).toFixed(digits)} pt`;
+}
+
+/** Plain reading of an effect interval (a difference of rates): it helps or hurts only when the whole interval says so. */
 export function effectWord(l: { lower: number; upper: number }): "helps" | "hurts" | "unclear" {
-  return l.lower > 1 ? "helps" : l.upper < 1 ? "hurts" : "unclear";
+  return l.lower > 0 ? "helps" : l.upper < 0 ? "hurts" : "unclear";
 }
 
 function clip(label: string, px: number): string {

@@ -1,5 +1,5 @@
 /** Turning the server's numbers and keys into the words and figures a marketer reads. */
-import type { RateInterval, RetiredReport } from "./types.ts";
+import type { ProbabilityError, RateInterval, RetiredReport } from "./types.ts";
 
 const count = new Intl.NumberFormat("en", { maximumFractionDigits: 0 });
 
@@ -26,12 +26,36 @@ export function pct(value: number | null | undefined, digits?: number): string {
   return `${p.toFixed(d)}\u00a0%`;
 }
 
-/** A probability of being best: keeps "> 99.9 %" and "< 0.1 %" honest instead of rounding to 100 or 0. */
-export function prob(value: number | null | undefined): string {
+/**
+ * A probability of being best, never more precise than its Monte-Carlo error allows: rounded to the
+ * decimal of the standard error's first digit (1.6 points → "52 %", 0.3 → "96.2 %"), and never
+ * "100 %" or "0 %" — at or beyond the ends the 95 % Wilson bound is shown ("> 99.6 %", "< 0.4 %").
+ * Without an error (figures stored by older versions) one decimal, kept off 100 and 0 the same way.
+ */
+export function prob(value: number | null | undefined, error?: ProbabilityError | null): string {
   if (value === null || value === undefined) return "—";
-  if (value >= 0.9995 && value < 1) return "> 99.9\u00a0%";
-  if (value > 0 && value < 0.0005) return "< 0.1\u00a0%";
-  return `${(value * 100).toFixed(1)}\u00a0%`;
+  const se = error ? error.standardError * 100 : 0.1;
+  const digits = se >= 1 ? 0 : se >= 0.1 ? 1 : 2;
+  const text = (value * 100).toFixed(digits);
+  const top = (100).toFixed(digits);
+  const zero = (0).toFixed(digits);
+  if (text === top || value >= 1) {
+    const bound = error ? Math.floor(error.lower * 1000) / 10 : 99.9;
+    return `> ${Math.min(bound, 99.9).toFixed(1)}\u00a0%`;
+  }
+  if (text === zero || value <= 0) {
+    const bound = error ? Math.ceil(error.upper * 1000) / 10 : 0.1;
+    return `< ${Math.max(bound, 0.1).toFixed(1)}\u00a0%`;
+  }
+  return `${text}\u00a0%`;
+}
+
+/** "±1.6 points over 1,000 posterior draws" — the Monte-Carlo error behind a probability of being best. */
+export function probError(error: ProbabilityError | null | undefined): string {
+  if (!error) return "";
+  const se = error.standardError * 100;
+  const spread = se > 0 ? `±${se.toFixed(se >= 1 ? 1 : 2)} points` : `between ${pct(error.lower, 1)} and ${pct(error.upper, 1)}`;
+  return `Draw noise: ${spread} (${count.format(error.draws)} posterior draws).`;
 }
 
 export function rateWithInterval(rate: RateInterval | null | undefined): string {

@@ -58,15 +58,30 @@ export interface CombinationReport {
   combination: string;
   levels: Record<string, { level: string; value?: string | null }>;
   probabilityBest: number;
+  /** Monte-Carlo error of probabilityBest: binomial standard error and 95 % Wilson bounds over `draws` posterior draws. */
+  probabilityBestError: ProbabilityError;
   rate: RateInterval;
   visitors: number;
   conversions: number;
 }
 
+export interface ProbabilityError { draws: number; standardError: number; lower: number; upper: number }
+
+export interface Estimate3 { mean: number; lower: number; upper: number }
+
+export interface LevelEffect {
+  level: string;
+  /** Average change in conversion rate against the reference level (a difference of rates); null when never comparable. */
+  difference: Estimate3 | null;
+  relative: Estimate3 | null;
+  contexts: number;
+  oddsRatioAtFirstLevels: { estimate: number; lower: number; upper: number };
+}
+
 export interface FactorEffect {
   factor: string;
   reference: string;
-  levels: { level: string; oddsRatio: number; lower: number; upper: number }[];
+  levels: LevelEffect[];
 }
 
 export interface RetiredReport {
@@ -117,6 +132,7 @@ export interface SegmentReport {
   baseline: CombinationReport | null;
   top: CombinationReport[];
   expectedLoss: number | null;
+  expectedLossError: number | null;
   expectedLossFraction: number | null;
   effects: FactorEffect[];
   /** Learned sd of a segment's effects around the pooled ones (log-odds); null before the first fold. */
@@ -153,6 +169,7 @@ export interface ExportJson {
     combination: string;
     levels: Record<string, { level: string; value?: string | null }>;
     probabilityBest: number | null;
+    probabilityBestError: ProbabilityError | null;
     rate: RateInterval | null;
   }[];
 }

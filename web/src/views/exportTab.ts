@@ -138,7 +138,7 @@ function exportTable(data: ExportJson): HTMLElement {
           h("td", { "data-label": "Status" }, seg.status === "waiting" || seg.status === "exploring" || seg.status === "settled" ? segmentBadge(seg.status) : seg.status),
           h("td", { class: "wide", "data-label": "Levels and values" }, h("ul", { class: "plain" }, Object.entries(seg.levels).map(([factor, { level, value }]) =>
             h("li", null, h("span", { class: "chip-f" }, factor), " ", h("strong", null, level), " ", levelValue(value))))),
-          h("td", { class: "num", "data-label": "Chance best" }, prob(seg.probabilityBest)),
+          h("td", { class: "num", "data-label": "Chance best" }, prob(seg.probabilityBest, seg.probabilityBestError)),
           h("td", { class: "num", "data-label": "Rate" }, seg.rate ? pct(seg.rate.mean) : "—"),
         ))),
     ),

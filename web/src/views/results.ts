@@ -8,7 +8,7 @@
  */
 import { h, type Child } from "../dom.ts";
 import { allocationChart, allocationRows, allocationSeries, effectChart, effectWord, intervalChart, seriesColours } from "../charts.ts";
-import { n, pct, prob, ratio, rateWithInterval, segmentLabel, absoluteTime } from "../format.ts";
+import { n, pct, prob, probError, ratio, rateWithInterval, segmentLabel, absoluteTime } from "../format.ts";
 import type { Report, SegmentReport } from "../types.ts";
 import { comboChips, combinationLevels, segmentBadge } from "./parts.ts";
 import type { UiState } from "./pageView.ts";
@@ -53,7 +53,7 @@ function overview(report: Report, chosen: string, ui: UiState, redraw: () => voi
       ),
       h("td", { "data-label": "Status" }, segmentBadge(seg.status)),
       h("td", { class: "combo-cell", "data-label": "Leader" }, seg.leader ? comboChips(seg.leader.combination) : h("span", { class: "muted" }, "not yet")),
-      h("td", { class: "num", "data-label": "Chance best" }, prob(seg.leader?.probabilityBest)),
+      h("td", { class: "num", "data-label": "Chance best" }, prob(seg.leader?.probabilityBest, seg.leader?.probabilityBestError)),
       h("td", { class: "num", "data-label": "Rate" }, pct(seg.leader?.rate.mean)),
       h("td", { class: "num", "data-label": "Visitors" }, n(seg.visitors)),
     );
@@ -113,7 +113,8 @@ function leaderCard(seg: SegmentReport): HTMLElement {
     h(
       "dl",
       { class: "figures" },
-      h("div", null, h("dt", null, "Chance of being best"), h("dd", { class: "big" }, prob(leader.probabilityBest))),
+      h("div", null, h("dt", null, "Chance of being best"), h("dd", { class: "big" }, prob(leader.probabilityBest, leader.probabilityBestError)),
+        h("dd", { class: "hint" }, probError(leader.probabilityBestError))),
       h("div", null, h("dt", null, "Conversion rate"), h("dd", { class: "big" }, pct(leader.rate.mean)),
         h("dd", { class: "hint" }, `95 % interval ${pct(leader.rate.lower)} – ${pct(leader.rate.upper)}`)),
       h("div", null, h("dt", null, "Observed"), h("dd", null, `${n(leader.visitors)} visitors · ${n(leader.conversions)} conversions`)),
@@ -128,6 +129,9 @@ function settleCard(seg: SegmentReport, settings: Report["settings"]): HTMLEleme
   const needP = Number(settings.settleProbability ?? 0.95);
   const needLoss = Number(settings.settleLossFraction ?? 0.01);
   const p = seg.leader?.probabilityBest ?? null;
+  const pError = seg.leader?.probabilityBestError ?? null;
+  const leaveP = Math.min(Number(settings.unsettleProbability ?? 0.9), needP);
+  const leaveLoss = Math.max(Number(settings.unsettleLossFraction ?? 0.015), needLoss);
   const lossFraction = seg.expectedLossFraction;
   const parts: Child[] = [h("h3", null, "Status ", segmentBadge(seg.status))];
   if (seg.status === "waiting") {
@@ -138,6 +142,7 @@ function settleCard(seg: SegmentReport, settings: Report["settings"]): HTMLEleme
         seg.settledBy === "loss"
           ? `Settled: stopping now would cost at most ${pct(needLoss)} of the leader's conversion rate.`
           : `Settled: the leader's chance of being best reached ${prob(needP)}.`,
+        ` It explores again only if the chance falls below ${prob(leaveP)} and the expected loss rises above ${pct(leaveLoss)}, so figures wavering at the bar do not switch it back and forth.`,
         keepsExploring(settings)),
     );
   } else {
@@ -145,7 +150,7 @@ function settleCard(seg: SegmentReport, settings: Report["settings"]): HTMLEleme
   }
   if (seg.status !== "waiting") {
     parts.push(
-      progress("Chance the leader is best", p ?? 0, needP, `${prob(p)} of ${prob(needP)} needed`),
+      progress("Chance the leader is best", p ?? 0, needP, `${prob(p, pError)} of ${prob(needP)} needed`),
       progress(
         "Expected loss of stopping now",
         lossFraction === null ? 0 : Math.min(1, needLoss / Math.max(lossFraction, 1e-12)),
@@ -191,7 +196,7 @@ function topCard(seg: SegmentReport, width: number): HTMLElement {
       { class: c.combination === leaderKey ? "is-leader" : null },
       h("td", { class: "num rank-cell", "data-label": "#" }, String(i + 1), c.combination === leaderKey ? h("span", { class: "tag" }, "leader") : null),
       h("td", { class: "combo-cell", "data-label": "Combination" }, comboChips(c.combination)),
-      h("td", { class: "num", "data-label": "Chance best" }, prob(c.probabilityBest)),
+      h("td", { class: "num", "data-label": "Chance best" }, prob(c.probabilityBest, c.probabilityBestError)),
       h("td", { class: "num", "data-label": "Rate" }, pct(c.rate.mean)),
       h("td", { class: "num nowrap", "data-label": "95 % interval" }, `${pct(c.rate.lower)} – ${pct(c.rate.upper)}`),
       h("td", { class: "num", "data-label": "Visitors" }, n(c.visitors)),
@@ -284,7 +289,7 @@ function effectsCard(seg: SegmentReport, ui: UiState, width: number): HTMLElemen
         h("figcaption", null, h("strong", null, effect.factor)),
         effectChart(effect, chartWidth),
         h("ul", { class: "effect-words" },
-          effect.levels.map((l) => h("li", null, h("strong", null, l.level), `: ${effectWord(l)} (×${ratio(l.oddsRatio)}, ${ratio(l.lower)}–${ratio(l.upper)})`))),
+          effect.levels.map((l) => h("li", null, h("strong", null, l.level), `: ${effectText(l)}`))),
       ),
     ),
   );
@@ -293,13 +298,25 @@ function effectsCard(seg: SegmentReport, ui: UiState, width: number): HTMLElemen
     "section",
     { class: "panel", "aria-labelledby": "effects-title" },
     h("h3", { id: "effects-title" }, "What each factor does"),
-    h("p", { class: "hint" }, "Each level compared with the factor's first level, as odds ratios with 95 % intervals: right of the line helps, left hurts. Averaged over the other factors; pairs can still work differently together."),
+    h("p", { class: "hint" }, "Switching a factor from its first level to another changes the conversion rate by this much, in percentage points with 95 % intervals: right of the line helps, left hurts. Averaged over every allowed setting of the other factors and over what the model is still unsure of; a level can still work better with some partners than with others."),
     grid,
     seg.segmentSpread === null ? null : h("p", { class: "hint", "data-testid": "segment-spread" },
       `Traffic sources differ: a level's effect in one source strays from its effect over all sources by about ±${seg.segmentSpread.toFixed(2)} in log-odds (×${ratio(Math.exp(-seg.segmentSpread))}–×${ratio(Math.exp(seg.segmentSpread))} in odds), as learned from every source's data at the last update.`),
-    panelDetails(ui, "effects-help", "How to read odds ratios", h("p", null,
-      "An odds ratio of ×1.20 means the level raises the odds of converting by about a fifth compared with the reference level; at low conversion rates that is roughly a fifth more conversions. An interval crossing ×1 means the data cannot yet tell whether it helps.")),
+    panelDetails(ui, "effects-odds", "Odds ratios with the other factors at their first level", h("ul", { class: "effect-words" },
+      seg.effects.flatMap((effect) => effect.levels.map((l) => h("li", null, h("strong", null, `${effect.factor} ${l.level}`),
+        `: ×${ratio(l.oddsRatioAtFirstLevels.estimate)} (95 % interval ${ratio(l.oddsRatioAtFirstLevels.lower)}–${ratio(l.oddsRatioAtFirstLevels.upper)})`)))),
+      h("p", { class: "hint" }, "The model's own coefficients: how the level changes the odds of converting when every other factor is at its first level. Unlike the figures above they leave out how the level works with the other factors' other levels.")),
   );
+}
+
+/** "helps: +6.4 points (4.8 to 8.0), +28 % relative" for one level's average effect, to the precision its interval supports. */
+function effectText(l: SegmentReport["effects"][number]["levels"][number]): string {
+  const d = l.difference;
+  if (!d || !l.relative) return "never shown together with the first level, so it cannot be compared";
+  const digits = (d.upper - d.lower) * 100 >= 1 ? 1 : 2;
+  const pts = (v: number) => `${v > 0 ? "+" : v < 0 ? "−" : ""}${Math.abs(v * 100).toFixed(digits)}`;
+  const rel = l.relative.mean * 100;
+  return `${effectWord(d)}: ${pts(d.mean)} points (95 % interval ${pts(d.lower)} to ${pts(d.upper)}), ${rel > 0 ? "+" : rel < 0 ? "−" : ""}${Math.abs(rel).toFixed(Math.abs(rel) >= 10 ? 0 : 1)} % relative`;
 }
 
 function crossCheckCard(seg: SegmentReport): HTMLElement {
