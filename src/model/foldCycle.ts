@@ -132,7 +132,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
     summaries[segment] = round.summary;
     if (round.counters.size > 0) dominated.set(segment, round.counters);
     else dominated.delete(segment);
-    newlyRetired.push(...round.newlyRetired);
+    for (const entry of round.newlyRetired) newlyRetired.push(entry);
     if (round.reinstated.size > 0) reinstatedBySegment.set(segment, round.reinstated);
   }
   for (const segment of requested) {
@@ -145,7 +145,8 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
     const reason = entry.reinstatedAt === null ? reinstatedBySegment.get(entry.segment)?.get(entry.combination) : undefined;
     return reason === undefined ? entry : { ...entry, reinstatedAt: now, reinstateReason: reason };
   });
-  retired.push(...newlyRetired);
+  // a loop, not push(...): a large page retires more combinations at once than a call takes arguments
+  for (const entry of newlyRetired) retired.push(entry);
 
   return { state: { ...folded.state, dominated, settled }, allocations, summaries, retired, skipped: folded.skipped };
 }
