@@ -19,7 +19,7 @@ export function combinationRates(input: { design: Design; settings: PageSettings
   checkStateMatches(state, design);
   const combos = input.combinations.map((key) => parseCombinationKey(design, key));
   const own = segment !== "*" && state.segments.has(segment) ? [segment] : [];
-  const posterior = segmentPosterior(computePosteriors(design, settings, sitesOf(state), own, { tau: state.segmentSpread, scales: state.priorScales, learn: false }), own.length > 0 ? segment : "*");
+  const posterior = segmentPosterior(computePosteriors(design, settings, sitesOf(state), own, { tau: state.segmentSpread, scales: state.priorScales, learn: false, integrate: true }), own.length > 0 ? segment : "*");
   const d = design.dimension;
   const M = settings.samples;
   const samples = drawSamples(posterior, d, M, createRng(input.seed));

@@ -33,7 +33,8 @@ import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts"
 import { type DiagonalPrior, priorFor } from "./prior.ts";
 import { type PriorScales, searchPriorScales, UNIT_SCALES } from "./priorScaleSearch.ts";
 import type { PageSettings } from "./settings.ts";
-import { nearestStep, searchSpread, spreadFactor } from "./spreadSearch.ts";
+import { nearestStep, searchSpread, spreadFactor, spreadPosterior } from "./spreadSearch.ts";
+import { mixPosteriors } from "./spreadMixture.ts";
 import type { Site } from "./state.ts";
 
 /** A Gaussian N(mean, precision⁻¹) with the Cholesky factor of its precision. */
@@ -184,12 +185,14 @@ export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, 
 /**
  * Which hyperparameters to use: τ and the prior scales as given (`learn` false; null means the
  * settings), or learned (`learn` true): τ by a search that starts at the grid step nearest `tau`,
- * the prior scales over their whole grid at each τ.
+ * the prior scales over their whole grid at each τ. With `integrate`, the posteriors average over
+ * τ's posterior on the grid instead of using one τ (spreadMixture.ts); the prior scales stay as chosen.
  */
 export interface SpreadChoice {
   tau: number | null;
   scales?: PriorScales | null;
   learn: boolean;
+  integrate?: boolean;
 }
 
 /**
@@ -203,24 +206,36 @@ export function computePosteriors(
   only?: Iterable<string>,
   choice: SpreadChoice = { tau: null, learn: true },
 ): Posteriors {
-  const d = design.dimension;
   const scales = choice.learn ? null : (choice.scales ?? UNIT_SCALES);
-  const at = (tau: number): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), scales);
+  const at = (tau: number, chosen: PriorScales | null = scales): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), chosen);
   // τ is not identified from fewer than two segments with data: keep the setting.
   let withData = 0;
   for (const site of sites.values()) if (site.visitors > 0) withData++;
   const setting = settings.segmentSpread;
-  const { spread, terms, pBeta, hBeta, pooled, scales: priorScales } = !choice.learn
+  const pooled = !choice.learn
     ? at(choice.tau ?? setting)
     : withData < 2
       ? at(setting)
       : searchSpread((k) => at(setting * spreadFactor(k)), nearestStep(choice.tau, setting)).value;
+  const segments = [...(only ?? sites.keys())];
+  const chosen = posteriorsAt(design, settings, sites, pooled, segments);
+  if (!choice.integrate || withData < 2 || !(setting > 0) || design.dimension < 2) return chosen;
+  // τ's posterior on the grid, with the scales fixed at the ones in use: each step's posteriors, weighted.
+  const step = nearestStep(chosen.segmentSpread, setting);
+  const weighted = spreadPosterior(step, (k) => (k === step ? pooled : at(setting * spreadFactor(k), pooled.scales)));
+  return mixPosteriors(design.dimension, chosen, weighted.map(({ weight, step: k, value }) => ({ weight, posteriors: k === step ? chosen : posteriorsAt(design, settings, sites, value, segments) })));
+}
+
+/** The posteriors under one pooling (one τ and one pair of prior scales). */
+function posteriorsAt(design: Design, settings: PageSettings, sites: Map<string, Site>, pool: Pooled, only: string[]): Posteriors {
+  const d = design.dimension;
+  const { spread, terms, pBeta, hBeta, pooled, scales: priorScales } = pool;
   const starTerm = widen(pBeta, d, spread, hBeta, "the new-segment posterior");
   const star = gaussianFromNatural(starTerm.m, starTerm.v, d, "the new-segment posterior");
 
   const segments = new Map<string, Gaussian>();
   const cavities = new Map<string, NaturalPrior>();
-  for (const segment of only ?? sites.keys()) {
+  for (const segment of only) {
     const site = sites.get(segment);
     const term = terms.get(segment);
     if (!site || !term) continue;
@@ -236,7 +251,7 @@ export function computePosteriors(
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : setting, priorScales };
+  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : settings.segmentSpread, priorScales };
 }
 
 /**

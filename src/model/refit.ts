@@ -70,6 +70,8 @@ export function refit(design: Design, settings: PageSettings, inputs: Map<string
     const same = posteriors.segmentSpread === tau && posteriors.priorScales.main === priorScales.main && posteriors.priorScales.interaction === priorScales.interaction;
     if (same && converged(d, posteriors, modes)) break;
   }
+  // The fit runs at τ's most probable value; the posteriors it returns average over τ (spreadMixture.ts).
+  if (spread.learn) posteriors = computePosteriors(design, settings, sites, undefined, { tau: posteriors.segmentSpread, scales: posteriors.priorScales, learn: false, integrate: true });
   const segments = new Map<string, SegmentData>();
   for (const [segment, input] of inputs) segments.set(segment, { counts: input.counts, mode: modes.get(segment)!, site: sites.get(segment)! });
   return { segments, posteriors, sweeps };

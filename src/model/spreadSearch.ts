@@ -65,3 +65,32 @@ export function searchSpread<T extends { logEvidence: number }>(evaluate: (k: nu
   }
   return { step: k, value: seen.get(k)! };
 }
+
+/** Share of the largest weight below which a grid step is left out of τ's posterior (its mass is negligible). */
+const NEGLIGIBLE = 1e-3;
+
+/**
+ * τ's posterior on the grid, p(k | sites) ∝ exp(logEvidence(k) + logHyperprior(k)) (BDA §5.4,
+ * eq. 5.21 read on a grid), over the steps that carry weight: from `start` outwards in both
+ * directions until a step's weight falls below NEGLIGIBLE of the largest seen. Weights sum to 1.
+ */
+export function spreadPosterior<T extends { logEvidence: number }>(start: number, evaluate: (k: number) => T): { step: number; weight: number; value: T }[] {
+  const seen: { step: number; score: number; value: T }[] = [];
+  const add = (k: number) => {
+    const value = evaluate(k);
+    const entry = { step: k, score: value.logEvidence + logHyperprior(k), value };
+    seen.push(entry);
+    return entry.score;
+  };
+  let best = add(start);
+  for (const direction of [1, -1]) {
+    for (let k = start + direction; Math.abs(k) <= SPREAD_STEPS; k += direction) {
+      const score = add(k);
+      best = Math.max(best, score);
+      if (score < best + Math.log(NEGLIGIBLE)) break;
+    }
+  }
+  const kept = seen.filter((e) => e.score >= best + Math.log(NEGLIGIBLE));
+  const total = kept.reduce((sum, e) => sum + Math.exp(e.score - best), 0);
+  return kept.sort((a, b) => a.step - b.step).map((e) => ({ step: e.step, weight: Math.exp(e.score - best) / total, value: e.value }));
+}

@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { logHyperprior, nearestStep, searchSpread, SPREAD_STEPS, spreadFactor } from "../../src/model/spreadSearch.ts";
+import { logHyperprior, nearestStep, searchSpread, SPREAD_STEPS, spreadFactor, spreadPosterior } from "../../src/model/spreadSearch.ts";
 
 // The walk is checked against scores whose maximum is known by construction (no outside source).
 describe("the spread search", () => {
@@ -62,4 +62,23 @@ describe("the spread search", () => {
     // One sd (a factor of 2) away costs ½ in log density.
     expect(logHyperprior(0) - logHyperprior(2)).toBeCloseTo(0.5, 12);
   });
+
+  it("weighs the grid by evidence × hyperprior: with flat evidence, the hyperprior's normal on log τ read on the grid", () => {
+    // log τ = (k/2)·ln 2 with sd ln 2, so the weight of step k is ∝ exp(−k²/8) (the normal density on the grid).
+    const weights = spreadPosterior(0, () => ({ logEvidence: 0 }));
+    expect(weights.map((w) => w.step)).toEqual([-4, -3, -2, -1, 0, 1, 2, 3, 4]);
+    const total = weights.reduce((s, w) => s + Math.exp((-w.step * w.step) / 8), 0);
+    for (const w of weights) expect(w.weight).toBeCloseTo(Math.exp((-w.step * w.step) / 8) / total, 12);
+  });
+
+  it("leaves out steps that carry less than a thousandth of the largest weight, wherever it starts", () => {
+    for (const start of [-4, 0, 2, 4]) {
+      const weights = spreadPosterior(start, (k) => ({ logEvidence: -4 * (k - 2) ** 2 - logHyperprior(k) }));
+      // exp(−4) and exp(−16) relative to the peak at 2: steps 1 and 3 stay, 0 and 4 go.
+      expect(weights.map((w) => w.step)).toEqual([1, 2, 3]);
+      expect(weights.reduce((s, w) => s + w.weight, 0)).toBeCloseTo(1, 12);
+      expect(weights[1].weight).toBeCloseTo(1 / (1 + 2 * Math.exp(-4)), 12);
+    }
+  });
 });
+
