@@ -24,7 +24,7 @@ import { comboTable, scanByClimbing, scanEnumerated, scoresOf } from "./bestComb
 import { combinationKey } from "./combinationKey.ts";
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
-import { linearPredictor } from "./linearPredictor.ts";
+import { linearPredictors } from "./linearPredictor.ts";
 import { predictedRates } from "./predictedRate.ts";
 import { updateRetirement, type RetiredEntry } from "./retirement.ts";
 import type { Rng } from "./rng.ts";
@@ -90,10 +90,10 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
   const meanTheta = new Float64Array(d + 1);
   meanTheta.set(posterior.mean);
   const activeIdx = new Int32Array(design.activeCount);
-  const scratch = new Float64Array(d);
+  const predictorFor = linearPredictors(posterior, d);
   const predictorOf = (c: Combination) => {
     writeActiveFeatures(design, c, activeIdx, 0);
-    return linearPredictor(posterior, d, activeIdx, scratch);
+    return predictorFor(activeIdx);
   };
   const scoresFor = (c: Combination, draws = samples, count = M): Float64Array => {
     writeActiveFeatures(design, c, activeIdx, 0);

@@ -25,12 +25,20 @@ export const CLIMB_RESTARTS = 8;
  * in compressed-row form: combination c's features are idx[start[c]] … idx[start[c+1] − 1]. Only
  * real features are kept — a feature at a factor's reference level is the zero slot and adds
  * nothing — so a score costs about half the additions of the fixed-length feature list.
+ *
+ * Each combination's features are split into its prefix (those not involving the last factor:
+ * the intercept, the other factors' main effects and their pairs), listed first, and the rest
+ * (start[c] + prefixLength[c] onwards). Combinations come in lexicographic order with the last
+ * factor fastest, so consecutive ones mostly share their prefix (samePrefix[c] = 1 when c's prefix
+ * equals c − 1's) and a scan adds the prefix once per run of the last factor's levels.
  */
 export interface ComboTable {
   combos: Combination[];
   keys: string[];
   start: Int32Array;
   idx: Int32Array;
+  prefixLength: Int32Array;
+  samePrefix: Uint8Array;
   indexOfKey: Map<string, number>;
 }
 
@@ -40,16 +48,25 @@ export function comboTable(design: Design): ComboTable {
   let table = tables.get(design);
   if (!table) {
     const combos = allowedCombinations(design);
+    const last = design.factors.length - 1;
+    // writeActiveFeatures' order: intercept, main effects by factor, then pairs (design.pairs).
+    const touchesLast = [false, ...design.factors.map((_, f) => f === last), ...design.pairs.map(([i, j]) => i === last || j === last)];
     const active = new Int32Array(design.activeCount);
     const start = new Int32Array(combos.length + 1);
+    const prefixLength = new Int32Array(combos.length);
+    const samePrefix = new Uint8Array(combos.length);
     const features: number[] = [];
     combos.forEach((c, i) => {
       writeActiveFeatures(design, c, active, 0);
-      for (const j of active) if (j !== design.dimension) features.push(j);
+      const real = (k: number) => active[k] !== design.dimension;
+      for (let k = 0; k < active.length; k++) if (real(k) && !touchesLast[k]) features.push(active[k]);
+      prefixLength[i] = features.length - start[i];
+      for (let k = 0; k < active.length; k++) if (real(k) && touchesLast[k]) features.push(active[k]);
       start[i + 1] = features.length;
+      samePrefix[i] = i > 0 && c.every((level, f) => f === last || level === combos[i - 1][f]) ? 1 : 0;
     });
     const keys = combos.map((c) => combinationKey(design, c));
-    table = { combos, keys, start, idx: Int32Array.from(features), indexOfKey: new Map(keys.map((k, i) => [k, i])) };
+    table = { combos, keys, start, idx: Int32Array.from(features), prefixLength, samePrefix, indexOfKey: new Map(keys.map((k, i) => [k, i])) };
     tables.set(design, table);
   }
   return table;
@@ -58,6 +75,11 @@ export function comboTable(design: Design): ComboTable {
 /** Linear predictor xᵀθ of combination c's active features for every draw (feature-major draws, sampling.ts). */
 export function scoresOf(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, out: Float64Array): void {
   out.fill(0, 0, count);
+  addRows(idx, offset, m, samples, count, out);
+}
+
+/** Adds the draws' rows of features idx[offset …] (m of them) to `out`. */
+function addRows(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, out: Float64Array): void {
   for (let a = offset; a < offset + m; a++) {
     const row = idx[a] * count;
     for (let s = 0; s < count; s++) out[s] += samples[row + s];
@@ -85,9 +107,9 @@ export interface Tempering {
 }
 
 /**
- * Scores every allowed combination for every draw, combination by combination: each score is a
- * few additions of contiguous feature rows (feature-major draws), then one pass keeps each draw's
- * best so far.
+ * Scores every allowed combination for every draw, combination by combination: each score is the
+ * shared prefix's sum (ComboTable) plus a few contiguous feature rows (feature-major draws), then
+ * one pass keeps each draw's best so far.
  */
 export function scanEnumerated(table: ComboTable, samples: Float64Array, count: number, eligible: Uint8Array, tempering?: Tempering): EnumeratedScan {
   const n = table.combos.length;
@@ -99,8 +121,12 @@ export function scanEnumerated(table: ComboTable, samples: Float64Array, count: 
   const bestEligible = new Float64Array(count).fill(-Infinity);
   const bestEligibleAt = new Int32Array(count).fill(-1);
   const score = new Float64Array(count);
+  const prefix = new Float64Array(count);
+  const { prefixLength, samePrefix } = table;
   for (let c = 0; c < n; c++) {
-    scoresOf(idx, start[c], start[c + 1] - start[c], samples, count, score);
+    if (samePrefix[c] !== 1) scoresOf(idx, start[c], prefixLength[c], samples, count, prefix);
+    score.set(prefix);
+    addRows(idx, start[c] + prefixLength[c], start[c + 1] - start[c] - prefixLength[c], samples, count, score);
     for (let s = 0; s < count; s++) {
       if (score[s] > bestScore[s]) {
         bestScore[s] = score[s];

@@ -7,7 +7,7 @@ import { parseCombinationKey } from "./combinationKey.ts";
 import { type Design, writeActiveFeatures } from "./design.ts";
 import { computePosteriors, segmentPosterior } from "./hierarchy.ts";
 import { scoresOf } from "./bestCombination.ts";
-import { linearPredictor } from "./linearPredictor.ts";
+import { linearPredictors } from "./linearPredictor.ts";
 import { createRng } from "./rng.ts";
 import { drawSamples } from "./sampling.ts";
 import type { PageSettings } from "./settings.ts";
@@ -24,13 +24,13 @@ export function combinationRates(input: { design: Design; settings: PageSettings
   const M = settings.samples;
   const samples = drawSamples(posterior, d, M, createRng(input.seed));
   const idx = new Int32Array(design.activeCount);
-  const scratch = new Float64Array(d);
+  const predictorOf = linearPredictors(posterior, d);
   const out: Record<string, RateInterval> = {};
   combos.forEach((c, i) => {
     writeActiveFeatures(design, c, idx, 0);
     const scores = new Float64Array(M);
     scoresOf(idx, 0, idx.length, samples, M, scores);
-    out[input.combinations[i]] = rateFromScores(scores, linearPredictor(posterior, d, idx, scratch));
+    out[input.combinations[i]] = rateFromScores(scores, predictorOf(idx));
   });
   return out;
 }

@@ -29,7 +29,7 @@
  */
 import type { Design } from "./design.ts";
 import type { NaturalPrior } from "./newton.ts";
-import { choleskySolve, factorSpd, forwardSolve, symmetrize } from "./linalg.ts";
+import { choleskySolve, covarianceFromCholesky, factorSpd, symmetrize } from "./linalg.ts";
 import { type DiagonalPrior, priorFor } from "./prior.ts";
 import { type PriorScales, searchPriorScales, UNIT_SCALES } from "./priorScaleSearch.ts";
 import type { PageSettings } from "./settings.ts";
@@ -57,13 +57,18 @@ export interface Posteriors {
   segmentSpread: number;
   /** The prior scales' multiples in use (priorScaleSearch.ts). */
   priorScales: PriorScales;
+  /** log Z of the sites under this τ and these scales (up to terms free of both): τ's posterior weight (spreadSearch.ts). */
+  logEvidence: number;
 }
 
 /**
  * A Gaussian "seen through" δ's extra variance T = S² (S diagonal): given natural parameters
- * (A, v) returns ((A⁻¹ + T)⁻¹, (I + AT)⁻¹v), computed without inverting A (valid for singular A)
- * by the push-through identity (I + AT)⁻¹ = I − AS(I + SAS)⁻¹S (Henderson & Searle, SIAM Review
- * 23(1), 1981): with B = I + SAS = LLᵀ and Y = L⁻¹SA, the results are A − YᵀY and v − YᵀL⁻¹Sv.
+ * (A, v) returns ((A⁻¹ + T)⁻¹, (I + AT)⁻¹v), computed without inverting A (valid for singular A).
+ * With B = I + SAS = LLᵀ, the push-through identity (I + AT)⁻¹ = I − AS B⁻¹S (Henderson & Searle,
+ * SIAM Review 23(1), 1981) gives the mean part v − AS B⁻¹Sv, and, when every spread is positive,
+ * (A⁻¹ + T)⁻¹ = S⁻¹(I − B⁻¹)S⁻¹ (from A − ASB⁻¹SA with SAS = B − I): one factorisation and one
+ * inverse, d³/2 multiply-adds. Below MIN_SPREAD that form loses digits to the 1/s² factor, and
+ * the precision part is computed as A − YᵀY with Y = L⁻¹SA instead (7d³/6).
  * Also returns the site's T-dependent share of the log evidence, −log|L| + ½|L⁻¹Sv|².
  */
 export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float64Array, where: string): Widened {
@@ -73,6 +78,33 @@ export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float
     b[i * d + i] += 1;
   }
   const l = factorSpd(b, d, where);
+  const sv = Float64Array.from(v, (x, i) => spread[i] * x);
+  let logEvidence = 0;
+  for (let i = 0; i < d; i++) logEvidence -= Math.log(l[i * d + i]);
+  // u = B⁻¹Sv; |L⁻¹Sv|² = (Sv)ᵀu
+  const u = choleskySolve(l, d, sv);
+  for (let i = 0; i < d; i++) logEvidence += 0.5 * sv[i] * u[i];
+  const out = v.slice();
+  for (let i = 0; i < d; i++) {
+    let s = 0;
+    for (let j = 0; j < d; j++) s += a[i * d + j] * spread[j] * u[j];
+    out[i] -= s;
+  }
+  return { m: spread.every((s) => s >= MIN_SPREAD) ? precisionByInverse(l, d, spread) : precisionByPushThrough(a, l, d, spread), v: out, logEvidence };
+}
+
+/** Smallest spread for which `widen` uses S⁻¹(I − B⁻¹)S⁻¹: its round-off is about ε/s² ≤ 2e-10 in absolute terms. */
+const MIN_SPREAD = 1e-3;
+
+function precisionByInverse(l: Float64Array, d: number, spread: Float64Array): Float64Array {
+  const m = covarianceFromCholesky(l, d);
+  for (let i = 0; i < d; i++) {
+    for (let j = 0; j < d; j++) m[i * d + j] = ((i === j ? 1 : 0) - m[i * d + j]) / (spread[i] * spread[j]);
+  }
+  return m;
+}
+
+function precisionByPushThrough(a: Float64Array, l: Float64Array, d: number, spread: Float64Array): Float64Array {
   // Y = L⁻¹ S A, column by column (forward substitution on the columns of SA), stored row-major.
   const y = new Float64Array(d * d);
   for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) y[i * d + j] = spread[i] * a[i * d + j];
@@ -97,13 +129,7 @@ export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float
     }
   }
   for (let i = 0; i < d; i++) for (let j = 0; j < i; j++) m[i * d + j] = m[j * d + i];
-  const sv = Float64Array.from(v, (x, i) => spread[i] * x);
-  forwardSolve(l, d, sv);
-  const out = v.slice();
-  for (let k = 0; k < d; k++) for (let i = 0; i < d; i++) out[i] -= y[k * d + i] * sv[k];
-  let logEvidence = 0;
-  for (let i = 0; i < d; i++) logEvidence += 0.5 * sv[i] * sv[i] - Math.log(l[i * d + i]);
-  return { m, v: out, logEvidence };
+  return m;
 }
 
 export interface Widened {
@@ -217,13 +243,27 @@ export function computePosteriors(
     : withData < 2
       ? at(setting)
       : searchSpread((k) => at(setting * spreadFactor(k)), nearestStep(choice.tau, setting)).value;
-  const segments = [...(only ?? sites.keys())];
-  const chosen = posteriorsAt(design, settings, sites, pooled, segments);
-  if (!choice.integrate || withData < 2 || !(setting > 0) || design.dimension < 2) return chosen;
-  // τ's posterior on the grid, with the scales fixed at the ones in use: each step's posteriors, weighted.
+  const chosen = posteriorsAt(design, settings, sites, pooled, [...(only ?? sites.keys())]);
+  return choice.integrate ? integrateSpread(design, settings, sites, chosen) : chosen;
+}
+
+/**
+ * `chosen` (posteriors at one τ on the grid) averaged over τ's posterior on the grid, with the
+ * prior scales fixed at chosen's (spreadSearch.ts `spreadPosterior`, spreadMixture.ts); unchanged
+ * when τ is not identified (fewer than two segments with data) or not in use.
+ */
+export function integrateSpread(design: Design, settings: PageSettings, sites: Map<string, Site>, chosen: Posteriors): Posteriors {
+  let withData = 0;
+  for (const site of sites.values()) if (site.visitors > 0) withData++;
+  const setting = settings.segmentSpread;
+  if (withData < 2 || !(setting > 0) || design.dimension < 2) return chosen;
   const step = nearestStep(chosen.segmentSpread, setting);
-  const weighted = spreadPosterior(step, (k) => (k === step ? pooled : at(setting * spreadFactor(k), pooled.scales)));
-  return mixPosteriors(design.dimension, chosen, weighted.map(({ weight, step: k, value }) => ({ weight, posteriors: k === step ? chosen : posteriorsAt(design, settings, sites, value, segments) })));
+  const segments = [...chosen.segments.keys()];
+  const weighted = spreadPosterior(step, (k) => (k === step ? { logEvidence: chosen.logEvidence, pool: null } : (() => {
+    const pool = poolSites(design, settings, sites, segmentSpreads(design, settings, setting * spreadFactor(k)), chosen.priorScales);
+    return { logEvidence: pool.logEvidence, pool };
+  })()));
+  return mixPosteriors(design.dimension, chosen, weighted.map(({ weight, value }) => ({ weight, posteriors: value.pool === null ? chosen : posteriorsAt(design, settings, sites, value.pool, segments) })));
 }
 
 /** The posteriors under one pooling (one τ and one pair of prior scales). */
@@ -251,7 +291,7 @@ function posteriorsAt(design: Design, settings: PageSettings, sites: Map<string,
     for (let i = 0; i < d; i++) q.v[i] += site.eta[i];
     segments.set(segment, gaussianFromNatural(q.m, q.v, d, where));
   }
-  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : settings.segmentSpread, priorScales };
+  return { pooled, star, segments, cavities, segmentSpread: spread.length > 1 ? spread[1] : settings.segmentSpread, priorScales, logEvidence: pool.logEvidence };
 }
 
 /**

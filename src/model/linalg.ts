@@ -19,8 +19,7 @@ export function cholesky(a: Float64Array, d: number): Float64Array | null {
     const ri = i * d;
     for (let j = 0; j <= i; j++) {
       const rj = j * d;
-      let s = a[ri + j];
-      for (let k = 0; k < j; k++) s -= l[ri + k] * l[rj + k];
+      let s = a[ri + j] - dot(l, ri, l, rj, j);
       if (i === j) {
         if (!(s > 0)) return null;
         l[ri + i] = Math.sqrt(s);
@@ -30,6 +29,27 @@ export function cholesky(a: Float64Array, d: number): Float64Array | null {
     }
   }
   return l;
+}
+
+/**
+ * Σ_{k<n} x[i+k]·y[j+k], with four partial sums so consecutive multiply-adds do not wait on each
+ * other (about twice as fast as one running sum in V8 at these sizes; the summation order differs,
+ * so results may differ in the last bits).
+ */
+export function dot(x: Float64Array, i: number, y: Float64Array, j: number, n: number): number {
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  let k = 0;
+  for (; k + 3 < n; k += 4) {
+    s0 += x[i + k] * y[j + k];
+    s1 += x[i + k + 1] * y[j + k + 1];
+    s2 += x[i + k + 2] * y[j + k + 2];
+    s3 += x[i + k + 3] * y[j + k + 3];
+  }
+  for (; k < n; k++) s0 += x[i + k] * y[j + k];
+  return s0 + s1 + (s2 + s3);
 }
 
 /** (A + Aᵀ)/2 in place. */
@@ -130,17 +150,14 @@ export function covarianceFromCholesky(l: Float64Array, d: number): Float64Array
     const c = j * d;
     w[c + j] = 1 / l[j * d + j];
     for (let i = j + 1; i < d; i++) {
-      let s = 0;
       const ri = i * d;
-      for (let m = j; m < i; m++) s -= l[ri + m] * w[c + m];
-      w[c + i] = s / l[ri + i];
+      w[c + i] = -dot(l, ri + j, w, c + j, i - j) / l[ri + i];
     }
   }
   const out = new Float64Array(d * d);
   for (let i = 0; i < d; i++) {
     for (let j = i; j < d; j++) {
-      let s = 0;
-      for (let m = j; m < d; m++) s += w[i * d + m] * w[j * d + m];
+      const s = dot(w, i * d + j, w, j * d + j, d - j);
       out[i * d + j] = s;
       out[j * d + i] = s;
     }

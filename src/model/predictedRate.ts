@@ -11,14 +11,12 @@
  * error is below 1e-7 for s ≤ 2 and about 1e-5 at s = 3 (checked against Simpson integration in
  * the test). Unlike the draws' mean in summary.ts it carries no Monte Carlo error.
  *
- * `predictedRates` evaluates many combinations of one posterior: with more combinations than
- * coefficients it forms the covariance P⁻¹ once (d³/3, linalg.ts) and reads each variance xᵀP⁻¹x off its
- * active entries (O(k²) for k active features); otherwise one forward solve each (O(d²)).
+ * `predictedRates` evaluates many combinations of one posterior through `linearPredictors`, which
+ * switches to the covariance once that is the cheaper way.
  */
 import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
 import type { Gaussian } from "./hierarchy.ts";
-import { covarianceFromCholesky } from "./linalg.ts";
-import { linearPredictor } from "./linearPredictor.ts";
+import { linearPredictors } from "./linearPredictor.ts";
 import { sigmoid } from "./logistic.ts";
 
 const NODES = 32;
@@ -71,37 +69,11 @@ export function meanRate(mean: number, sd: number): number {
 
 /** The predicted rate E[σ(xᵀθ)] of each combination under one segment's posterior. */
 export function predictedRates(design: Design, posterior: Gaussian, combos: Combination[]): Float64Array {
-  const d = design.dimension;
-  const k = design.activeCount;
-  const active = new Int32Array(k);
-  const out = new Float64Array(combos.length);
-  if (combos.length <= d) {
-    const scratch = new Float64Array(d);
-    combos.forEach((c, i) => {
-      writeActiveFeatures(design, c, active, 0);
-      const a = linearPredictor(posterior, d, active, scratch);
-      out[i] = meanRate(a.mean, a.sd);
-    });
-    return out;
-  }
-  const covariance = covarianceFromCholesky(posterior.chol, d);
-  const present = new Int32Array(k);
-  combos.forEach((c, i) => {
+  const predictorOf = linearPredictors(posterior, design.dimension);
+  const active = new Int32Array(design.activeCount);
+  return Float64Array.from(combos, (c) => {
     writeActiveFeatures(design, c, active, 0);
-    let count = 0;
-    let mean = 0;
-    for (let x = 0; x < k; x++) {
-      if (active[x] === d) continue;
-      present[count++] = active[x];
-      mean += posterior.mean[active[x]];
-    }
-    let variance = 0;
-    for (let x = 0; x < count; x++) {
-      const row = present[x] * d;
-      variance += covariance[row + present[x]];
-      for (let y = x + 1; y < count; y++) variance += 2 * covariance[row + present[y]];
-    }
-    out[i] = meanRate(mean, Math.sqrt(Math.max(0, variance)));
+    const a = predictorOf(active);
+    return meanRate(a.mean, a.sd);
   });
-  return out;
 }

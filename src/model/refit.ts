@@ -19,7 +19,7 @@
  */
 import { rowBlock, type SegmentCounts } from "./counts.ts";
 import type { Design } from "./design.ts";
-import { computePosteriors, type Posteriors, type SpreadChoice } from "./hierarchy.ts";
+import { computePosteriors, integrateSpread, type Posteriors, type SpreadChoice } from "./hierarchy.ts";
 import { laplaceFit, likelihoodSite, type RowBlock } from "./newton.ts";
 import type { PageSettings } from "./settings.ts";
 import { type SegmentData, type Site } from "./state.ts";
@@ -71,7 +71,7 @@ export function refit(design: Design, settings: PageSettings, inputs: Map<string
     if (same && converged(d, posteriors, modes)) break;
   }
   // The fit runs at τ's most probable value; the posteriors it returns average over τ (spreadMixture.ts).
-  if (spread.learn) posteriors = computePosteriors(design, settings, sites, undefined, { tau: posteriors.segmentSpread, scales: posteriors.priorScales, learn: false, integrate: true });
+  if (spread.learn) posteriors = integrateSpread(design, settings, sites, posteriors);
   const segments = new Map<string, SegmentData>();
   for (const [segment, input] of inputs) segments.set(segment, { counts: input.counts, mode: modes.get(segment)!, site: sites.get(segment)! });
   return { segments, posteriors, sweeps };

@@ -1,6 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { createRng, foldCycle, initialState, parseSettings, pickFrom, combinationKey } from "../../src/model/index.ts";
 import { CLIMB_RESTARTS, comboTable, scanByClimbing, scanEnumerated } from "../../src/model/bestCombination.ts";
+import { featureVector } from "../../src/model/design.ts";
 import { factorSpd } from "../../src/model/linalg.ts";
 import { priorFor } from "../../src/model/prior.ts";
 import { drawSamples, temperDraws } from "../../src/model/sampling.ts";
@@ -41,6 +42,33 @@ describe("best combination of a sample", () => {
       console.log(`hill climbing (${CLIMB_RESTARTS} random restarts + mean start) on ${levels.join("×")}: found the optimum in ${(rate * 100).toFixed(1)}% of ${M} samples`);
       expect(rate).toBeGreaterThan(0.95);
     }
+  });
+
+  it("scores every combination as the dense feature vector's dot product with the draw (shared prefixes included)", () => {
+    // Definition check: score = φ(c)ᵀθ with φ the dense 0/1 feature vector (design.ts featureVector),
+    // on a page whose exclusions break the runs of shared prefixes.
+    const design = page([3, 3, 2, 3], { exclude: [{ f0: "l1", f3: "l2" }, { f1: "l0", f2: "l1" }] });
+    const d = design.dimension;
+    const precision = new Float64Array(d * d);
+    for (let i = 0; i < d; i++) precision[i * d + i] = 4;
+    const posterior = { precision, mean: Float64Array.from({ length: d }, (_, i) => 0.1 * Math.cos(i)), chol: factorSpd(precision.slice(), d, "test") };
+    const M = 50;
+    const samples = drawSamples(posterior, d, M, createRng(9));
+    const table = comboTable(design);
+    const scan = scanEnumerated(table, samples, M, new Uint8Array(table.keys.length).fill(1));
+    for (let s = 0; s < M; s++) {
+      let best = -Infinity;
+      let at = -1;
+      table.combos.forEach((c, i) => {
+        const x = featureVector(design, c);
+        let score = 0;
+        for (let j = 0; j < d; j++) score += x[j] * samples[j * M + s];
+        if (score > best) [best, at] = [score, i];
+      });
+      expect(scan.bestScore[s]).toBeCloseTo(best, 12);
+      expect(scan.countAll[at]).toBeGreaterThan(0);
+    }
+    expect(table.samePrefix.some((x) => x === 0) && table.samePrefix.some((x) => x === 1)).toBe(true);
   });
 
   it("tempers in one pass exactly as scanning tempered draws does", () => {

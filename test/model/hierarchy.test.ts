@@ -14,20 +14,23 @@ function randomSpd(d: number, seed: number, rank = d): Float64Array {
 const toMatrix = (a: Float64Array, d: number) => new Matrix(Array.from({ length: d }, (_, i) => Array.from(a.subarray(i * d, i * d + d))));
 
 describe("a site seen through the segment deviation", () => {
-  it("equals (A⁻¹ + T)⁻¹ and (I + AT)⁻¹v computed by ml-matrix (reference library)", () => {
-    const d = 6;
-    const a = randomSpd(d, 1);
-    const spread = Float64Array.from([1, 0.25, 0.25, 0.5, 0, 0.25]);
-    const v = Float64Array.from([1, -2, 0.5, 3, -1, 0]);
-    const got = widen(a, d, spread, v, "test");
-    const t = Matrix.diag(Array.from(spread, (s) => s * s));
-    const ref = inverse(inverse(toMatrix(a, d)).add(t));
-    const refV = solve(Matrix.eye(d).add(toMatrix(a, d).mmul(t)), Matrix.columnVector(Array.from(v)));
-    for (let i = 0; i < d; i++) {
-      expect(got.v[i]).toBeCloseTo(refV.get(i, 0), 9);
-      for (let j = 0; j < d; j++) expect(got.m[i * d + j]).toBeCloseTo(ref.get(i, j), 9);
-    }
-  });
+  // A zero spread takes the push-through path, positive spreads the S⁻¹(I − B⁻¹)S⁻¹ one.
+  for (const spreads of [[1, 0.25, 0.25, 0.5, 0, 0.25], [1, 0.25, 0.25, 0.5, 0.01, 0.25]]) {
+    it(`equals (A⁻¹ + T)⁻¹ and (I + AT)⁻¹v computed by ml-matrix (reference library), spreads ${spreads.join(", ")}`, () => {
+      const d = 6;
+      const a = randomSpd(d, 1);
+      const spread = Float64Array.from(spreads);
+      const v = Float64Array.from([1, -2, 0.5, 3, -1, 0]);
+      const got = widen(a, d, spread, v, "test");
+      const t = Matrix.diag(Array.from(spread, (s) => s * s));
+      const ref = inverse(inverse(toMatrix(a, d)).add(t));
+      const refV = solve(Matrix.eye(d).add(toMatrix(a, d).mmul(t)), Matrix.columnVector(Array.from(v)));
+      for (let i = 0; i < d; i++) {
+        expect(got.v[i]).toBeCloseTo(refV.get(i, 0), 9);
+        for (let j = 0; j < d; j++) expect(got.m[i * d + j]).toBeCloseTo(ref.get(i, j), 9);
+      }
+    });
+  }
 
   it("stays finite and bounded by T⁻¹ for a singular site", () => {
     // Eigenvalues of (Λ⁻¹ + τ²I)⁻¹ are λ/(1 + τ²λ) < 1/τ²; a rank-2 Λ has no inverse at all.
