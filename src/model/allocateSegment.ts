@@ -51,6 +51,8 @@ export interface SegmentRoundInput {
   counters: Map<string, number>;
   /** The segment's status after the previous round: a settled segment is held to the laxer unsettle bars (settleRule.ts). */
   wasSettled?: boolean;
+  /** false: the summary carries no factor effects (see FoldCycleInput.effects). */
+  effects?: boolean;
 }
 
 export interface SegmentRound {
@@ -231,7 +233,7 @@ export function allocateSegment(input: SegmentRoundInput): SegmentRound {
     expectedLossError: loss.standardError,
     expectedLossFraction: lossFraction,
     baseline,
-    effects: factorEffects(design, posterior, averageEffects(design, samples, M, rng)),
+    effects: input.effects === false ? [] : factorEffects(design, posterior, averageEffects(design, samples, M, rng)),
     segmentSpread: input.segmentSpread,
   };
 

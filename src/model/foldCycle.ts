@@ -48,6 +48,11 @@ export interface FoldCycleInput {
    * them (the simulator never reads them; the server always wants them). Default true.
    */
   pooled?: boolean;
+  /**
+   * false: summaries carry no factor effects (averageEffects.ts costs a rate per draw and context,
+   * the largest share of a small page's fold; the simulator never reads them). Default true.
+   */
+  effects?: boolean;
 }
 
 export interface FoldCycleOutput {
@@ -126,6 +131,7 @@ export function foldCycle(input: FoldCycleInput): FoldCycleOutput {
       active: activeBySegment.get(segment) ?? new Map(),
       counters: folded.state.dominated.get(segment) ?? new Map(),
       wasSettled: wasSettled.has(segment),
+      effects: input.effects,
     });
     if (round.summary.status === "settled") settled.push(segment);
     allocations[segment] = round.allocation;

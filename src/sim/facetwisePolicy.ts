@@ -73,6 +73,7 @@ export function facetwisePolicy(options: FacetwiseOptions): FacetwisePolicy {
       retired,
       seed: rng.int(2 ** 31),
       pooled: false,
+      effects: false,
     });
     state = out.state;
     retired = out.retired;
