@@ -115,9 +115,12 @@ export function isConnectionError(error: unknown): boolean {
   const visit = (e: unknown): boolean => {
     if (!e || typeof e !== "object" || seen.has(e)) return false;
     seen.add(e);
-    const { code, kind, message, cause, meta } = e as { code?: unknown; kind?: unknown; message?: unknown; cause?: unknown; meta?: { driverAdapterError?: unknown } };
+    const { code, syscall, kind, message, cause, meta } = e as { code?: unknown; syscall?: unknown; kind?: unknown; message?: unknown; cause?: unknown; meta?: { driverAdapterError?: unknown } };
     if (typeof code === "string") {
       if (CONNECTION_CODES.has(code) || PRISMA_CONNECTION_CODES.has(code)) return true;
+      // A server on a Unix socket that has stopped removed its socket file (PostgreSQL does;
+      // so does the embedded database's socket): connect(2) then fails ENOENT, not ECONNREFUSED.
+      if (code === "ENOENT" && syscall === "connect") return true;
       if (/^[0-9A-Z]{5}$/.test(code) && CONNECTION_SQLSTATE_CLASSES.some((c) => code.startsWith(c))) return true;
     }
     if (typeof kind === "string" && ADAPTER_CONNECTION_KINDS.has(kind)) return true;

@@ -6,7 +6,8 @@
  * pg_try_advisory_lock return false in any other session).
  */
 import { spawn } from "node:child_process";
-import { existsSync, readdirSync, readFileSync, readlinkSync, statSync } from "node:fs";
+import { existsSync, mkdtempSync, readdirSync, readFileSync, readlinkSync, rmSync, statSync } from "node:fs";
+import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import pg from "pg";
@@ -222,6 +223,18 @@ describe("an unreachable database", () => {
       await prisma.$disconnect();
       await pool.end();
     }
+    // a stopped server on a Unix socket leaves no socket file behind: connect(2) fails ENOENT
+    const empty = mkdtempSync(join(tmpdir(), "facetwise-nosocket-"));
+    const gone = new pg.Pool({ connectionString: `postgresql://postgres@localhost/postgres?host=${encodeURIComponent(empty)}` });
+    try {
+      const noSocket = await gone.query("SELECT 1").catch((e: unknown) => e);
+      expect(noSocket).toMatchObject({ code: "ENOENT", syscall: "connect" });
+      expect(isConnectionError(noSocket)).toBe(true);
+    } finally {
+      await gone.end();
+      rmSync(empty, { recursive: true });
+    }
+    expect(isConnectionError(Object.assign(new Error("no such file"), { code: "ENOENT", syscall: "open" }))).toBe(false);
     const db = await embedded.open();
     try {
       await db.prisma.page.create({ data: pageData("twice") });
