@@ -106,10 +106,14 @@ function draw(root: HTMLElement, shown: Tagged<Page>, onUpdated: OnUpdated, note
       root.querySelector<HTMLElement>(".learned")?.focus();
     } catch (error) {
       if (error instanceof ApiError && error.code === "PAGE_CHANGED") showChangedMeanwhile();
-      else if (error instanceof ApiError) showFieldErrors(root, problems, error);
-      else replace(problems, h("p", { class: "problem" }, (error as Error).message));
+      else showProblem(error);
       apply.disabled = false;
     }
+  }
+
+  function showProblem(error: unknown): void {
+    if (error instanceof ApiError) showFieldErrors(root, problems, error);
+    else replace(problems, h("p", { class: "problem" }, (error as Error).message));
   }
 
   /** The 412 answer in words, with the way out: load the page as it is now, keeping the user's edits. */
@@ -139,8 +143,7 @@ function draw(root: HTMLElement, shown: Tagged<Page>, onUpdated: OnUpdated, note
       reloaded.focus();
     } catch (error) {
       button.disabled = false;
-      if (error instanceof ApiError) showFieldErrors(root, problems, error);
-      else replace(problems, h("p", { class: "problem" }, (error as Error).message));
+      showProblem(error);
     }
   }
 
