@@ -11,27 +11,17 @@
  * FACETWISE_REQUIRE_BROWSER=1 (set by .ci/run), when it fails instead.
  */
 import { execFileSync } from "node:child_process";
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
+import { mkdirSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { BrowserContext, Page } from "playwright-core";
 import { root, startServer, type Server } from "./startServer.ts";
+import { CHROMIUM, CHROMIUM_ARGS, haveChromium, whenChromiumMissing } from "./chromium.ts";
 
-const CHROMIUM = "/usr/bin/chromium";
-const haveChromium = existsSync(CHROMIUM);
-const required = process.env.FACETWISE_REQUIRE_BROWSER === "1";
 const shots = join(root, "test-output");
 
-if (!haveChromium && !required) {
-  console.log("browser suite skipped: /usr/bin/chromium is missing; enable it with `apt-get install chromium`");
-}
-
-describe.runIf(!haveChromium && required)("browser suite (required)", () => {
-  it("needs Chromium", () => {
-    throw new Error("FACETWISE_REQUIRE_BROWSER=1 but /usr/bin/chromium is missing: run `apt-get install chromium`");
-  });
-});
+whenChromiumMissing("browser suite");
 
 /**
  * XSS attempts. The server refuses "=" and "|" in names (they separate combination keys), so the
@@ -109,8 +99,7 @@ describe.runIf(haveChromium)("admin console in Chromium", { timeout: 120_000 }, 
       headless: true,
       acceptDownloads: true,
       viewport: { width: 1280, height: 900 },
-      args: ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
-        "--no-first-run", "--disable-quic", "--disable-sync"],
+      args: CHROMIUM_ARGS,
     });
     page = context.pages()[0] ?? (await context.newPage());
     page.on("framenavigated", (frame) => visited.push(frame.url()));

@@ -1,7 +1,9 @@
 /**
  * The console's only door to the server: JSON over /api/v1 with the admin token as a Bearer
  * header. A 401 ends the session (the token was revoked or mistyped); every other error keeps
- * the server's own code, message and field so forms can show them as they are.
+ * the server's own code, message and field so forms can show them as they are. Page edits name
+ * the version they were made on (RFC 9110 §13.1.1 If-Match with the ETag of the read), so an edit
+ * made on a page someone else has changed meanwhile is refused (412 PAGE_CHANGED), not applied over theirs.
  */
 import { clearToken, getToken } from "./session.ts";
 
@@ -19,11 +21,25 @@ export class ApiError extends Error {
 /** Fired when the server refuses the stored token, so the shell can return to sign-in. */
 export const SIGNED_OUT = "facetwise:signed-out";
 
-async function send(method: string, path: string, body?: unknown, candidate?: string): Promise<Response> {
+/** A JSON answer with its entity tag: the version of the page it shows (null if the answer had none). */
+export interface Tagged<T> {
+  value: T;
+  etag: string | null;
+}
+
+interface SendOptions {
+  /** a token to check instead of the stored one */
+  candidate?: string;
+  /** the ETag of the version the edit was made on */
+  ifMatch?: string;
+}
+
+async function send(method: string, path: string, body?: unknown, { candidate, ifMatch }: SendOptions = {}): Promise<Response> {
   const token = candidate ?? getToken();
   const headers: Record<string, string> = { Accept: "application/json" };
   if (token) headers.Authorization = `Bearer ${token}`;
   if (body !== undefined) headers["Content-Type"] = "application/json";
+  if (ifMatch !== undefined) headers["If-Match"] = ifMatch;
   let response: Response;
   try {
     response = await fetch(`/api/v1${path}`, {
@@ -54,16 +70,28 @@ async function send(method: string, path: string, body?: unknown, candidate?: st
   );
 }
 
-export async function api<T>(method: string, path: string, body?: unknown): Promise<T> {
-  const response = await send(method, path, body);
+async function json<T>(response: Response): Promise<T> {
   if (response.status === 204) return undefined as T;
   const text = await response.text();
   return (text ? JSON.parse(text) : undefined) as T;
 }
 
+export async function api<T>(method: string, path: string, body?: unknown): Promise<T> {
+  return json<T>(await send(method, path, body));
+}
+
+/**
+ * `api` that also answers the ETag, for reads an edit will start from and for the edits
+ * themselves; with `ifMatch` the server applies the edit only to that version of the page.
+ */
+export async function tagged<T>(method: string, path: string, body?: unknown, ifMatch?: string): Promise<Tagged<T>> {
+  const response = await send(method, path, body, { ifMatch });
+  return { value: await json<T>(response), etag: response.headers.get("ETag") };
+}
+
 /** Checks a token before it is stored (GET /session). */
 export async function checkToken(token: string): Promise<void> {
-  await send("GET", "/session", undefined, token);
+  await send("GET", "/session", undefined, { candidate: token });
 }
 
 /** Fetches a file with the token in the header and hands it to the browser as a download. */

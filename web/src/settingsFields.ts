@@ -71,16 +71,17 @@ export interface SettingsForm {
 
 /**
  * The settings fieldsets. `current` is the page's resolved settings when editing, shown as the
- * starting values; on a new page the defaults are placeholders.
+ * starting values; on a new page the defaults are placeholders. `typed` (changes the user made on
+ * an older version of the page) replaces the starting values it names.
  */
-export function settingsForm(current: Settings | null, onChange: () => void): SettingsForm {
+export function settingsForm(current: Settings | null, onChange: () => void, typed: Settings = {}): SettingsForm {
   const inputs = new Map<string, HTMLInputElement>();
   const refreshers = new Map<string, () => void>();
   const row = (field: Field) => {
     const id = uid(`setting-${field.name}`);
     const helpId = `${id}-help`;
     const echoId = `${id}-echo`;
-    const startValue = current ? current[field.name] : undefined;
+    const startValue = field.name in typed ? typed[field.name] : current ? current[field.name] : undefined;
     const input = h("input", {
       id,
       name: field.name,

@@ -3,8 +3,11 @@
  * level values, the name and settings. Before anything is applied the view says, in plain words,
  * what each change does to what was learned and shows the new combination count (checked by the
  * server); after PATCH it shows the server's own account of what it kept, dropped and added.
+ * Every PATCH names the version of the page the form shows (If-Match); when someone else changed
+ * the page meanwhile the server refuses it (412 PAGE_CHANGED) and the form offers to load the
+ * current page, carrying over what the user entered.
  */
-import { api, ApiError } from "../api.ts";
+import { api, ApiError, tagged, type Tagged } from "../api.ts";
 import { h, replace, uid, type Child } from "../dom.ts";
 import { countLine, n } from "../format.ts";
 import { announce } from "../shell.ts";
@@ -36,15 +39,27 @@ const statusActions: { to: PageStatus; label: string; effect: string }[] = [
   { to: "frozen", label: "Freeze on the leaders", effect: "Each segment is served its current leader with no exploration; figures stop sharpening. What was learned is kept." },
 ];
 
-export function renderManage(page: Page, onUpdated: (page: Page) => void): HTMLElement {
+type OnUpdated = (shown: Tagged<Page>) => void;
+/** What became of carried edits: any still pending, and how many were left out. */
+interface Carried { pending: boolean; leftOut: number }
+
+/** `shown` is the page the form starts from, with the ETag of the answer it came in. */
+export function renderManage(shown: Tagged<Page>, onUpdated: OnUpdated): HTMLElement {
   const root = h("div", { class: "manage" });
-  draw(root, page, onUpdated, null);
+  draw(root, shown, onUpdated, null);
   return root;
 }
 
-function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, lastResult: LearnedNote | null): void {
-  const result = h("div", { role: "status", class: "result-slot" }, lastResult ? learnedBox(lastResult) : null);
+/**
+ * Draws the form for `shown`. `note` goes in the result slot; `carried` holds edits the user made
+ * on an older version of the page, re-applied where they still name something on this one.
+ */
+function draw(root: HTMLElement, shown: Tagged<Page>, onUpdated: OnUpdated, note: HTMLElement | null, carried: PatchBody = {}): Carried {
+  const page = shown.value;
+  const result = h("div", { role: "status", class: "result-slot" }, note);
   const problems = h("div", { class: "problems", role: "alert" });
+  // kept apart from `problems`, which every keystroke clears: this one stays until the page is reloaded
+  const changedMeanwhile = h("div", { class: "problems", role: "alert" });
   const count = h("p", { class: "count", "aria-live": "polite" });
   const consequences = h("ul", { class: "consequences" });
   const apply = h("button", { type: "submit", class: "primary", disabled: true }, "Apply changes");
@@ -55,23 +70,80 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
   const valueEdits = new Map<string, string>();
   const addedLevels: { factor: string; name: string; value: string }[] = [];
   const addedFactors: { id: string; name: string; levels: { name: string; value: string }[] }[] = [];
-  const nameInput = h("input", { id: "manage-name", value: page.name, "data-field": "name", autocomplete: "off" });
-  const settings = settingsForm(page.settings, () => changed());
+  const nameInput = h("input", { id: "manage-name", value: carried.name ?? page.name, "data-field": "name", autocomplete: "off" });
+  const settings = settingsForm(page.settings, () => changed(), carried.settings);
   const lk = (f: string, l: string) => `${f}\u0000${l}`;
+
+  const levelOf = (f: string, l: string) => page.factors.find((x) => x.name === f)?.levels.find((x) => x.name === l);
+  const hasFactor = (f: string) => page.factors.some((x) => x.name === f);
+  /** Carried edits that name a factor or level this version no longer has (someone removed it). */
+  let leftOut = 0;
+  const fitting = <T>(items: T[] | undefined, fits: (item: T) => boolean): T[] => {
+    const kept = (items ?? []).filter(fits);
+    leftOut += (items ?? []).length - kept.length;
+    return kept;
+  };
+  for (const f of fitting(carried.removeFactors, hasFactor)) removedFactors.add(f);
+  for (const r of fitting(carried.removeLevels, (r) => levelOf(r.factor, r.level) !== undefined)) removedLevels.add(lk(r.factor, r.level));
+  for (const v of fitting(carried.levelValues, (v) => levelOf(v.factor, v.level) !== undefined)) {
+    if (v.value !== (levelOf(v.factor, v.level)?.value ?? "")) valueEdits.set(lk(v.factor, v.level), v.value);
+  }
+  for (const l of fitting(carried.addLevels, (l) => hasFactor(l.factor))) addedLevels.push({ factor: l.factor, name: l.name, value: l.value ?? "" });
+  for (const f of carried.addFactors ?? []) {
+    addedFactors.push({ id: uid("nf"), name: f.name, levels: f.levels.map((l) => ({ name: l.name, value: l.value ?? "" })) });
+  }
 
   async function patch(body: PatchBody, what: string): Promise<void> {
     apply.disabled = true;
     showFieldErrors(root, problems, null);
     try {
-      const out = await api<{ page: Page; learned: LearnedNote }>("PATCH", `/pages/${encodeURIComponent(page.key)}`, body);
-      announce(`${what} ${out.learned.message}`);
-      onUpdated(out.page);
-      draw(root, out.page, onUpdated, out.learned);
+      // no ETag (a proxy dropped it): the edit goes without a precondition, as it would from a script
+      const out = await tagged<{ page: Page; learned: LearnedNote }>("PATCH", `/pages/${encodeURIComponent(page.key)}`, body, shown.etag ?? undefined);
+      announce(`${what} ${out.value.learned.message}`);
+      const next = { value: out.value.page, etag: out.etag };
+      onUpdated(next);
+      draw(root, next, onUpdated, learnedBox(out.value.learned));
       root.querySelector<HTMLElement>(".learned")?.focus();
     } catch (error) {
-      if (error instanceof ApiError) showFieldErrors(root, problems, error);
-      else replace(problems, h("p", { class: "problem" }, (error as Error).message));
+      if (error instanceof ApiError && error.code === "PAGE_CHANGED") showChangedMeanwhile();
+      else showProblem(error);
       apply.disabled = false;
+    }
+  }
+
+  function showProblem(error: unknown): void {
+    if (error instanceof ApiError) showFieldErrors(root, problems, error);
+    else replace(problems, h("p", { class: "problem" }, (error as Error).message));
+  }
+
+  /** The 412 answer in words, with the way out: load the page as it is now, keeping the user's edits. */
+  function showChangedMeanwhile(): void {
+    const reload = h("button", { type: "button", class: "primary", onclick: () => void reloadKeepingEdits(reload) }, "Load the current page");
+    replace(changedMeanwhile, h("div", { class: "problem page-changed" },
+      h("span", { class: "problem-mark", "aria-hidden": "true" }, "!"),
+      h("div", null,
+        h("p", null, h("strong", null, "Nothing was saved. "),
+          "Someone changed this page after this form was loaded (in another console or tab), and applying your edits would have overwritten theirs."),
+        h("p", null, "Load the current page to see what it is now. What you entered here is kept in the form, so you can check it against the current page and apply it again."),
+        h("div", { class: "actions" }, reload))));
+    reload.focus();
+  }
+
+  async function reloadKeepingEdits(button: HTMLButtonElement): Promise<void> {
+    button.disabled = true;
+    try {
+      const current = await tagged<Page>("GET", `/pages/${encodeURIComponent(page.key)}`);
+      onUpdated(current);
+      const reloaded = h("div", { class: "panel learned", tabindex: "-1" }, h("h2", null, "Current page loaded"));
+      const { pending, leftOut: dropped } = draw(root, current, onUpdated, reloaded, body());
+      reloaded.append(h("p", null, pending
+        ? "The form now shows the page as it is, with your edits carried over: check what they do below and apply them again."
+        : "The form now shows the page as it is: redo your change on it."));
+      if (dropped) reloaded.append(h("p", null, `${n(dropped)} of your edits named a factor or level that is no longer on the page and ${dropped === 1 ? "was" : "were"} left out.`));
+      reloaded.focus();
+    } catch (error) {
+      button.disabled = false;
+      showProblem(error);
     }
   }
 
@@ -276,7 +348,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
       settings.element),
     h("section", { class: "panel summary-bar", "aria-labelledby": "review-title" },
       h("h2", { id: "review-title" }, "What these changes do to what was learned"),
-      consequences, count, problems,
+      consequences, count, changedMeanwhile, problems,
       h("div", { class: "actions" }, apply)),
   );
   form.addEventListener("submit", (event) => {
@@ -288,6 +360,7 @@ function draw(root: HTMLElement, page: Page, onUpdated: (page: Page) => void, la
   replace(root, children);
   drawFactors();
   changed();
+  return { pending: explain(body()).length > 0, leftOut };
 }
 
 function learnedBox(note: LearnedNote): HTMLElement {

@@ -5,7 +5,7 @@
  * (tab, chosen segment, open panels) and re-draws only the figures, so scroll position, focus and
  * anything typed into a form survive every refresh.
  */
-import { api, ApiError } from "../api.ts";
+import { api, ApiError, tagged } from "../api.ts";
 import { h, replace } from "../dom.ts";
 import { n, pct, setFactorOrder, when } from "../format.ts";
 import { pageHref, type Route, type View } from "../shell.ts";
@@ -37,6 +37,8 @@ export function renderPageView(main: HTMLElement, route: Route): View {
   const key = route.key as string;
   let tab: TabId = tabIdOf(route.tab);
   let page: Page | null = null;
+  /** The ETag `page` came with: the version a Manage form opened on it edits. */
+  let pageTag: string | null = null;
   let report: Report | null = null;
   let timer = 0;
   let disposed = false;
@@ -145,11 +147,12 @@ export function renderPageView(main: HTMLElement, route: Route): View {
     if (tab === "manage") {
       // a form: built once per page view and kept while other tabs are shown, so unsaved edits
       // survive tab switches; never re-drawn under the user's typing
-      manageElement ??= renderManage(page, (updated) => {
-        page = updated;
+      manageElement ??= renderManage({ value: page, etag: pageTag }, (updated) => {
+        page = updated.value;
+        pageTag = updated.etag;
         changes += 1;
-        if (report) report.status = updated.status;
-        setFactorOrder(updated.factors.map((f) => f.name));
+        if (report) report.status = updated.value.status;
+        setFactorOrder(updated.value.factors.map((f) => f.name));
         drawHead();
       });
       if (panel.firstChild !== manageElement) replace(panel, manageElement);
@@ -184,7 +187,7 @@ export function renderPageView(main: HTMLElement, route: Route): View {
     const startedAt = changes;
     try {
       const [p, r] = await Promise.all([
-        api<Page>("GET", `/pages/${encodeURIComponent(key)}`),
+        tagged<Page>("GET", `/pages/${encodeURIComponent(key)}`),
         api<Report>("GET", `/pages/${encodeURIComponent(key)}/report`),
       ]);
       if (disposed) return;
@@ -194,9 +197,10 @@ export function renderPageView(main: HTMLElement, route: Route): View {
         return;
       }
       const firstLoad = page === null;
-      page = p;
+      page = p.value;
+      pageTag = p.etag;
       report = r;
-      setFactorOrder(p.factors.map((f) => f.name));
+      setFactorOrder(page.factors.map((f) => f.name));
       errorLine.textContent = "";
       drawHead();
       drawTabs();
