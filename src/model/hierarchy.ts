@@ -234,13 +234,10 @@ export function computePosteriors(
 ): Posteriors {
   const scales = choice.learn ? null : (choice.scales ?? UNIT_SCALES);
   const at = (tau: number, chosen: PriorScales | null = scales): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), chosen);
-  // τ is not identified from fewer than two segments with data: keep the setting.
-  let withData = 0;
-  for (const site of sites.values()) if (site.visitors > 0) withData++;
   const setting = settings.segmentSpread;
   const pooled = !choice.learn
     ? at(choice.tau ?? setting)
-    : withData < 2
+    : !spreadIdentified(sites)
       ? at(setting)
       : searchSpread((k) => at(setting * spreadFactor(k)), nearestStep(choice.tau, setting)).value;
   const chosen = posteriorsAt(design, settings, sites, pooled, [...(only ?? sites.keys())]);
@@ -253,17 +250,23 @@ export function computePosteriors(
  * when τ is not identified (fewer than two segments with data) or not in use.
  */
 export function integrateSpread(design: Design, settings: PageSettings, sites: Map<string, Site>, chosen: Posteriors): Posteriors {
-  let withData = 0;
-  for (const site of sites.values()) if (site.visitors > 0) withData++;
   const setting = settings.segmentSpread;
-  if (withData < 2 || !(setting > 0) || design.dimension < 2) return chosen;
+  if (!spreadIdentified(sites) || !(setting > 0) || design.dimension < 2) return chosen;
   const step = nearestStep(chosen.segmentSpread, setting);
   const segments = [...chosen.segments.keys()];
-  const weighted = spreadPosterior(step, (k) => (k === step ? { logEvidence: chosen.logEvidence, pool: null } : (() => {
+  const weighted = spreadPosterior<{ logEvidence: number; pool: Pooled | null }>(step, (k) => {
+    if (k === step) return { logEvidence: chosen.logEvidence, pool: null };
     const pool = poolSites(design, settings, sites, segmentSpreads(design, settings, setting * spreadFactor(k)), chosen.priorScales);
     return { logEvidence: pool.logEvidence, pool };
-  })()));
+  });
   return mixPosteriors(design.dimension, chosen, weighted.map(({ weight, value }) => ({ weight, posteriors: value.pool === null ? chosen : posteriorsAt(design, settings, sites, value.pool, segments) })));
+}
+
+/** τ is identified only from two or more segments with data; with fewer the setting is kept. */
+function spreadIdentified(sites: Map<string, Site>): boolean {
+  let withData = 0;
+  for (const site of sites.values()) if (site.visitors > 0 && ++withData >= 2) return true;
+  return false;
 }
 
 /** The posteriors under one pooling (one τ and one pair of prior scales). */
