@@ -11,6 +11,9 @@
  * ch. 3). Each sweep updates all segments from the same cavities; τ and the prior scales are
  * learned at each sweep's pooling (spreadSearch.ts, priorScaleSearch.ts). A sweep ends the loop when every segment's posterior mean lies within
  * 0.01 posterior sd (Mahalanobis) of the mode its site was taken at, and τ and the scales did not move.
+ * The posteriors returned then average over τ's posterior on its grid (hierarchy.ts
+ * `integrateSpread`, spreadMixture.ts); the cavities, and so the modes, stay those of the most
+ * probable τ.
  *
  * Because every fold refits from the counts, warm-started from the last modes, the result depends
  * only on the counts — not on how the data were split into folds — and approximation errors do
