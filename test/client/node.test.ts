@@ -10,7 +10,7 @@ import { afterAll, beforeAll, expect, it } from "vitest";
 // @ts-expect-error: plain ESM without type declarations
 import { createFacetwise, visitorCookie, visitorFromCookie } from "../../client/node.mjs";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "../integration/harness.ts";
+import { useHarness, testPage } from "../integration/harness.ts";
 
 const listen = async (server: Server) => {
   await new Promise<void>((resolve) => server.listen(0, "127.0.0.1", resolve));
@@ -32,19 +32,16 @@ it("reads and writes the visitor cookie (RFC 6265)", () => {
 });
 
 forEachDatabase("Node helper", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   let page: { key: string; publicKey: string };
   const servers: Server[] = [];
   const baseline = { title: { level: "short", value: "Fast repairs" } };
 
   beforeAll(async () => {
-    h = await startHarness(await open());
     page = (await h.admin("POST", "/pages", testPage("node-helper"))).body;
   });
   afterAll(async () => {
     for (const s of servers) s.close();
-    await h?.close();
-    await h?.db.close();
   });
 
   it("picks for a new visitor, sets the cookie, and stays sticky for the returning one", async () => {

@@ -3,22 +3,14 @@
  * follow HTTP semantics (RFC 9110: 201 Created, 202 Accepted, 404, 503 + Retry-After), CORS per
  * the WHATWG Fetch standard (preflight = OPTIONS with Access-Control-Request-*), CSV per RFC 4180.
  */
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { parseSettings } from "../../src/model/index.ts";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "./harness.ts";
+import { useHarness, testPage } from "./harness.ts";
 
 forEachDatabase("API routes", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   let page: { key: string; publicKey: string };
-
-  beforeAll(async () => {
-    h = await startHarness(await open());
-  });
-  afterAll(async () => {
-    await h?.close();
-    await h?.db.close();
-  });
 
   it("answers health and readiness", async () => {
     expect((await h.call("GET", "/healthz")).body).toEqual({ ok: true });

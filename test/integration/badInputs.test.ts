@@ -3,10 +3,10 @@
  * to fix, no stack trace, and nothing written (the whole database is fingerprinted before and
  * after). Status codes per RFC 9110 §15.5 (400, 401, 403, 404, 409, 413).
  */
-import { afterAll, beforeAll, expect, it, vi } from "vitest";
+import { beforeAll, expect, it, vi } from "vitest";
 import { request } from "node:http";
 import { forEachDatabase } from "../support/databases.ts";
-import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "./harness.ts";
+import { ADMIN_TOKEN, useHarness, testPage } from "./harness.ts";
 
 interface Case {
   name: string;
@@ -127,7 +127,7 @@ function rawRequest(url: string, method: string, path: string, headers: Record<s
 const TABLES = ["page", "factor", "level", "exclusion_rule", "segment", "pick", "assignment", "outcome", "posterior_snapshot", "allocation_record", "retired_combination", "api_key", "fold_log"];
 
 forEachDatabase("bad inputs", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   let publicKey: string;
 
   /** Everything a rejected request could have changed. */
@@ -140,15 +140,10 @@ forEachDatabase("bad inputs", (open) => {
   }
 
   beforeAll(async () => {
-    h = await startHarness(await open());
     const created = await h.admin("POST", "/pages", testPage("fixture"));
     publicKey = created.body.publicKey;
     const pick = await h.pick({ key: "fixture", publicKey }, "someone", { source: "search" });
     expect(pick.status).toBe(200);
-  });
-  afterAll(async () => {
-    await h?.close();
-    await h?.db.close();
   });
 
   it.each(cases)("$name → $status $code", async (c) => {

@@ -6,9 +6,9 @@
  * (Wilson 1927: the closed form is spelled out below), log loss (Good 1952) and its skill against
  * the constant observed rate.
  */
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "./harness.ts";
+import { useHarness, testPage } from "./harness.ts";
 
 interface Scored { id: string; segment: string; p: number; y: 0 | 1 }
 
@@ -68,14 +68,7 @@ function expectSame(actual: any, expected: ReturnType<typeof handCalibration>) {
 
 forEachDatabase("prequential calibration", (open) => {
   describe("picks store their prediction; the report scores closed windows", () => {
-    let h: Harness;
-    beforeAll(async () => {
-      h = await startHarness(await open());
-    });
-    afterAll(async () => {
-      await h?.close();
-      await h?.db.close();
-    });
+    const h = useHarness(open);
 
     it("stores the allocation's predicted rate with each pick and reports calibration equal to a hand computation", async () => {
       const created = await h.admin("POST", "/pages", testPage("calibrated", { settings: { attributionWindowHours: 1 } }));

@@ -8,7 +8,7 @@
  */
 import { afterAll, beforeAll, expect, it, vi } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "./harness.ts";
+import { ADMIN_TOKEN, useHarness, testPage } from "./harness.ts";
 import { api, ApiError, checkToken, SIGNED_OUT, tagged } from "../../web/src/api.ts";
 
 class MemoryStorage {
@@ -22,12 +22,11 @@ class MemoryStorage {
 interface Sent { method: string; path: string; ifMatch: string | null }
 
 forEachDatabase("console API helper", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   const sent: Sent[] = [];
   const signedOut = vi.fn();
 
   beforeAll(async () => {
-    h = await startHarness(await open());
     expect((await h.admin("POST", "/pages", testPage("console-api"))).status).toBe(201);
     const window = new EventTarget();
     window.addEventListener(SIGNED_OUT, signedOut);
@@ -46,8 +45,6 @@ forEachDatabase("console API helper", (open) => {
   });
   afterAll(async () => {
     vi.unstubAllGlobals();
-    await h?.close();
-    await h?.db.close();
   });
 
   it("reads the ETag, applies an edit that names it and refuses one that names an older version", async () => {

@@ -5,10 +5,10 @@
  * twice across a restart, and the stored posterior equal to a replay of the engine's foldCycle
  * over the stored picks.
  */
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { setTimeout as sleep } from "node:timers/promises";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "./harness.ts";
+import { startHarness, useHarness, testPage, type Harness } from "./harness.ts";
 import { FoldLoop, foldSeed } from "../../src/service/folds.ts";
 import { foldLogs, foldedRows, loadSnapshot } from "../../src/store/repositories/folds.ts";
 import { deserializeState, foldCycle, initialState, parseSettings, sitesOf } from "../../src/model/index.ts";
@@ -47,14 +47,7 @@ const states = async (db: Database, pageId: number) =>
 
 forEachDatabase("fold loop", (open, target) => {
   describe("maturing and the attribution window", () => {
-    let h: Harness;
-    beforeAll(async () => {
-      h = await startHarness(await open());
-    });
-    afterAll(async () => {
-      await h?.close();
-      await h?.db.close();
-    });
+    const h = useHarness(open);
 
     it("counts a conversion inside the window, stores but does not count one after it", async () => {
       // a 2-second window, in real time

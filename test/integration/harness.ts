@@ -3,6 +3,7 @@
  * port over a test database, called with node's fetch. The fold loop is off unless asked for:
  * tests fold explicitly, so nothing depends on timing.
  */
+import { afterAll, beforeAll } from "vitest";
 import type { Database } from "../../src/store/database.ts";
 import { startServer, type RunningServer } from "../../src/http/server.ts";
 import type { ServerOptions } from "../../src/http/server.ts";
@@ -51,6 +52,28 @@ export async function startHarness(db: Database, options: ServerOptions = {}): P
     count: async (table) => (await db.pool.query<{ n: number }>(`SELECT count(*)::int AS n FROM ${table}`)).rows[0].n,
     close: () => server.close(),
   };
+}
+
+/**
+ * A harness for the enclosing suite: started (on the database `open` gives) before its tests,
+ * closed after them — server first, then database. The returned object forwards to the started
+ * harness, so it is only used inside hooks and tests.
+ */
+export function useHarness(open: () => Promise<Database>, options?: ServerOptions): Harness {
+  let started: Harness | undefined;
+  beforeAll(async () => {
+    started = await startHarness(await open(), options);
+  });
+  afterAll(async () => {
+    await started?.close();
+    await started?.db.close();
+  });
+  return new Proxy({} as Harness, {
+    get: (_, key) => {
+      if (!started) throw new Error("the harness is used before its suite started it");
+      return started[key as keyof Harness];
+    },
+  });
 }
 
 /** A small page of our own for the suites: 2×3×2 = 12 combinations, one rule excludes 2. */

@@ -4,21 +4,14 @@
  * first fold after the upgrade stores the same counts a page that never had a version-1 snapshot
  * stores — nothing learned is lost. Checked by construction against the page's own stored picks.
  */
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { describe, expect, it } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "./harness.ts";
+import { useHarness, testPage } from "./harness.ts";
 import { loadSnapshot } from "../../src/store/repositories/folds.ts";
 
 forEachDatabase("snapshot upgrade", (open) => {
   describe("a version-1 snapshot", () => {
-    let h: Harness;
-    beforeAll(async () => {
-      h = await startHarness(await open());
-    });
-    afterAll(async () => {
-      await h?.close();
-      await h?.db.close();
-    });
+    const h = useHarness(open);
 
     it("is rebuilt from the stored picks at the next fold, with every visitor and conversion kept", async () => {
       const created = await h.admin("POST", "/pages", testPage("upgrade-page", { settings: { attributionWindowHours: 1 } }));

@@ -5,19 +5,14 @@
  * 200 and the value was gone, or one got 500 INVALID_MODEL_STATE). With If-Match (RFC 9110
  * §13.1.1) the second of two edits of the same version gets 412 PAGE_CHANGED and changes nothing.
  */
-import { afterAll, beforeAll, expect, it } from "vitest";
+import { beforeAll, expect, it } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "../integration/harness.ts";
+import { ADMIN_TOKEN, useHarness, testPage } from "../integration/harness.ts";
 
 forEachDatabase("concurrent page edits", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   beforeAll(async () => {
-    h = await startHarness(await open());
     expect((await h.admin("POST", "/pages", testPage("shared"))).status).toBe(201);
-  });
-  afterAll(async () => {
-    await h?.close();
-    await h?.db.close();
   });
 
   const patch = (body: unknown, ifMatch?: string) =>

@@ -6,10 +6,10 @@
  * with 4xx must leave the database as it was. 60 cases per route in CI, 2,000 with
  * FACETWISE_RELIABILITY_SCALE=nightly. Prints the status counts per route.
  */
-import { afterAll, beforeAll, expect, it } from "vitest";
+import { beforeAll, expect, it } from "vitest";
 import fc from "fast-check";
 import { forEachDatabase } from "../support/databases.ts";
-import { ADMIN_TOKEN, startHarness, testPage, type Harness } from "../integration/harness.ts";
+import { ADMIN_TOKEN, useHarness, testPage } from "../integration/harness.ts";
 import { size } from "./scale.ts";
 
 const SEED = Number(process.env.FACETWISE_FUZZ_SEED ?? 20261203);
@@ -117,18 +117,13 @@ const query = fc.oneof(fc.constant(""), fc.constantFrom("?format=csv", "?format=
   text.map((t) => `?format=${encodeURIComponent(t.replace(/[\ud800-\udfff]/g, ""))}`));
 
 forEachDatabase("fuzz of every route", (open) => {
-  let h: Harness;
+  const h = useHarness(open);
   let publicKey: string;
   beforeAll(async () => {
-    h = await startHarness(await open());
     publicKey = (await h.admin("POST", "/pages", testPage("fixture"))).body.publicKey;
     expect(publicKey).toBeTruthy();
     servedPicks.length = 0;
     for (let i = 0; i < 10; i++) servedPicks.push((await h.pick({ key: "fixture", publicKey }, `served-${i}`, { source: "search" })).body.pick);
-  });
-  afterAll(async () => {
-    await h?.close();
-    await h?.db.close();
   });
 
   /** One query over everything a request could write. */

@@ -6,20 +6,13 @@
  * Expected: zero 5xx, and every conversion acknowledged as counted is stored once and folded once.
  * Size: 600 visitors; 3,000 with FACETWISE_RELIABILITY_SCALE=nightly.
  */
-import { afterAll, beforeAll, expect, it, vi } from "vitest";
+import { expect, it, vi } from "vitest";
 import { forEachDatabase } from "../support/databases.ts";
-import { startHarness, testPage, type Harness } from "../integration/harness.ts";
+import { useHarness, testPage } from "../integration/harness.ts";
 import { size } from "./scale.ts";
 
 forEachDatabase("outcomes racing folds", (open) => {
-  let h: Harness;
-  beforeAll(async () => {
-    h = await startHarness(await open());
-  });
-  afterAll(async () => {
-    await h?.close();
-    await h?.db.close();
-  });
+  const h = useHarness(open);
 
   it("answers every outcome without 5xx and folds each counted conversion once", { timeout: 900_000 }, async () => {
     const visitors = size(600, 3000);
