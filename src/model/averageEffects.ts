@@ -19,8 +19,9 @@
  * level takes part in: a level that is great with one hero image and neutral otherwise shows a
  * positive average.
  */
+import { addRows } from "./addRows.ts";
 import { matchesNoRule } from "./allowed.ts";
-import { type Design, writeActiveFeatures } from "./design.ts";
+import { type Design, slotsInvolving, writeActiveFeatures } from "./design.ts";
 import { quantileInPlace } from "./quantile.ts";
 import type { Rng } from "./rng.ts";
 
@@ -65,30 +66,19 @@ export function averageEffects(design: Design, samples: Float64Array, draws: num
   const F = design.factors.length;
   const count = Math.min(draws, EFFECT_DRAW_LIMIT);
   const active = new Int32Array(design.activeCount);
+  const base = new Float64Array(count);
   const score = new Float64Array(count);
-  // Each combination's rate per draw, computed once: a small design's combinations appear in
-  // every factor's contexts.
-  const rates = new Map<number, Float64Array>();
-  const rateOf = (c: number[]): Float64Array => {
-    let code = 0;
-    for (let g = 0; g < F; g++) code = code * design.sizes[g] + c[g];
-    let out = rates.get(code);
-    if (!out) {
-      writeActiveFeatures(design, c, active, 0);
-      score.fill(0);
-      for (let a = 0; a < active.length; a++) {
-        const row = active[a] * draws;
-        for (let s = 0; s < count; s++) score[s] += samples[row + s];
-      }
-      out = new Float64Array(count);
-      // σ inline (1/(1 + e^−x) is exact at both ends: e^−x → ∞ gives 0, → 0 gives 1): the hottest loop here.
-      for (let s = 0; s < count; s++) out[s] = 1 / (1 + Math.exp(-score[s]));
-      rates.set(code, out);
-    }
-    return out;
+  const refRate = new Float64Array(count);
+  const rows = new Int32Array(design.activeCount);
+  // Adds the draws' rows of the active slots with involves[k] === want (zero slots add nothing).
+  const addSlots = (involves: Uint8Array, want: number, out: Float64Array) => {
+    let m = 0;
+    for (let k = 0; k < active.length; k++) if (involves[k] === want && active[k] !== design.dimension) rows[m++] = active[k];
+    addRows(rows, 0, m, samples, draws, count, out);
   };
   return design.factors.map((_, f) => {
     const L = design.sizes[f];
+    const involves = slotsInvolving(design, f);
     const others = design.sizes.map((size, g) => (g === f ? 1 : size));
     const contextCount = others.reduce((a, b) => a * b, 1);
     const exhaustive = contextCount <= CONTEXT_LIMIT;
@@ -111,15 +101,23 @@ export function averageEffects(design: Design, samples: Float64Array, draws: num
       }
       c[f] = 0;
       if (!matchesNoRule(design, c)) continue;
-      const refRate = rateOf(c);
+      // The context's share of every level's linear predictor (the slots not involving f), summed
+      // once; at the reference level it is the whole predictor (slotsInvolving).
+      writeActiveFeatures(design, c, active, 0);
+      base.fill(0);
+      addSlots(involves, 0, base);
+      // σ inline (1/(1 + e^−x) is exact at both ends: e^−x → ∞ gives 0, → 0 gives 1): the hottest loops here.
+      for (let s = 0; s < count; s++) refRate[s] = 1 / (1 + Math.exp(-base[s]));
       for (let l = 1; l < L; l++) {
         c[f] = l;
         if (!matchesNoRule(design, c)) continue;
-        const rate = rateOf(c);
+        writeActiveFeatures(design, c, active, 0);
+        score.set(base);
+        addSlots(involves, 1, score);
         const ls = levelSum[l];
         const rs = refSum[l];
         for (let s = 0; s < count; s++) {
-          ls[s] += rate[s];
+          ls[s] += 1 / (1 + Math.exp(-score[s]));
           rs[s] += refRate[s];
         }
         used[l]++;

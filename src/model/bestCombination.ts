@@ -14,7 +14,8 @@
  */
 import { allowedCombinations, matchesNoRule, sampleAllowed, type Space } from "./allowed.ts";
 import { combinationKey } from "./combinationKey.ts";
-import { type Combination, type Design, writeActiveFeatures } from "./design.ts";
+import { type Combination, type Design, slotsInvolving, writeActiveFeatures } from "./design.ts";
+import { addRows } from "./addRows.ts";
 import type { Rng } from "./rng.ts";
 
 /** Random starts per sample in addition to the posterior-mean optimum. */
@@ -49,8 +50,7 @@ export function comboTable(design: Design): ComboTable {
   if (!table) {
     const combos = allowedCombinations(design);
     const last = design.factors.length - 1;
-    // writeActiveFeatures' order: intercept, main effects by factor, then pairs (design.pairs).
-    const touchesLast = [false, ...design.factors.map((_, f) => f === last), ...design.pairs.map(([i, j]) => i === last || j === last)];
+    const touchesLast = slotsInvolving(design, last);
     const active = new Int32Array(design.activeCount);
     const start = new Int32Array(combos.length + 1);
     const prefixLength = new Int32Array(combos.length);
@@ -75,15 +75,7 @@ export function comboTable(design: Design): ComboTable {
 /** Linear predictor xᵀθ of combination c's active features for every draw (feature-major draws, sampling.ts). */
 export function scoresOf(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, out: Float64Array): void {
   out.fill(0, 0, count);
-  addRows(idx, offset, m, samples, count, out);
-}
-
-/** Adds the draws' rows of features idx[offset …] (m of them) to `out`. */
-function addRows(idx: Int32Array, offset: number, m: number, samples: Float64Array, count: number, out: Float64Array): void {
-  for (let a = offset; a < offset + m; a++) {
-    const row = idx[a] * count;
-    for (let s = 0; s < count; s++) out[s] += samples[row + s];
-  }
+  addRows(idx, offset, m, samples, count, count, out);
 }
 
 export interface EnumeratedScan {
@@ -126,17 +118,26 @@ export function scanEnumerated(table: ComboTable, samples: Float64Array, count: 
   for (let c = 0; c < n; c++) {
     if (samePrefix[c] !== 1) scoresOf(idx, start[c], prefixLength[c], samples, count, prefix);
     score.set(prefix);
-    addRows(idx, start[c] + prefixLength[c], start[c + 1] - start[c] - prefixLength[c], samples, count, score);
-    for (let s = 0; s < count; s++) {
-      if (score[s] > bestScore[s]) {
-        bestScore[s] = score[s];
-        bestAt[s] = c;
+    addRows(idx, start[c] + prefixLength[c], start[c + 1] - start[c] - prefixLength[c], samples, count, count, score);
+    // One pass per combination (the scan is bound by passes over the draws): the honest argmax,
+    // and for an eligible combination the tempered one too.
+    if (eligible[c] !== 1) {
+      for (let s = 0; s < count; s++) {
+        if (score[s] > bestScore[s]) {
+          bestScore[s] = score[s];
+          bestAt[s] = c;
+        }
       }
+      continue;
     }
-    if (eligible[c] !== 1) continue;
     const m = meanScore[c];
     for (let s = 0; s < count; s++) {
-      const t = scale === 1 ? score[s] : m + scale * (score[s] - m);
+      const v = score[s];
+      if (v > bestScore[s]) {
+        bestScore[s] = v;
+        bestAt[s] = c;
+      }
+      const t = scale === 1 ? v : m + scale * (v - m);
       if (t > bestEligible[s]) {
         bestEligible[s] = t;
         bestEligibleAt[s] = c;

@@ -247,6 +247,15 @@ export function writeActiveFeatures(design: Design, c: ArrayLike<number>, out: I
   }
 }
 
+/**
+ * For each slot of `writeActiveFeatures`' output, whether its feature involves factor f (f's main
+ * effect or a pair with f). The other slots depend only on the other factors' levels, and at f's
+ * reference level every slot that involves f is the zero slot.
+ */
+export function slotsInvolving(design: Design, f: number): Uint8Array {
+  return Uint8Array.from([false, ...design.factors.map((_, g) => g === f), ...design.pairs.map(([i, j]) => i === f || j === f)], Number);
+}
+
 /** φ(c) as a dense 0/1 vector of length d. */
 export function featureVector(design: Design, c: ArrayLike<number>): Float64Array {
   const idx = new Int32Array(design.activeCount);

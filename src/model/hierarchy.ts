@@ -72,12 +72,12 @@ export interface Posteriors {
  * Also returns the site's T-dependent share of the log evidence, −log|L| + ½|L⁻¹Sv|².
  */
 export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float64Array, where: string): Widened {
-  const b = new Float64Array(d * d);
+  const b = workBuffer(0, d * d);
   for (let i = 0; i < d; i++) {
     for (let j = 0; j < d; j++) b[i * d + j] = spread[i] * a[i * d + j] * spread[j];
     b[i * d + i] += 1;
   }
-  const l = factorSpd(b, d, where);
+  const l = factorSpd(b, d, where, workBuffer(1, d * d));
   const sv = Float64Array.from(v, (x, i) => spread[i] * x);
   let logEvidence = 0;
   for (let i = 0; i < d; i++) logEvidence -= Math.log(l[i * d + i]);
@@ -93,11 +93,23 @@ export function widen(a: Float64Array, d: number, spread: Float64Array, v: Float
   return { m: spread.every((s) => s >= MIN_SPREAD) ? precisionByInverse(l, d, spread) : precisionByPushThrough(a, l, d, spread), v: out, logEvidence };
 }
 
+/**
+ * d² work buffers (slots 0–2: `widen`'s B, L and W = L⁻¹; slot 3: a leave-one-out precision
+ * before it is widened), reused from call to call: a fold cycle of a large page widens thousands of
+ * sites, and fresh d² arrays for each made garbage collection about a quarter of its time.
+ * Nothing outside one call reads them.
+ */
+const work: Float64Array[] = [0, 1, 2, 3].map(() => new Float64Array(0));
+function workBuffer(slot: number, length: number): Float64Array {
+  if (work[slot].length < length) work[slot] = new Float64Array(length);
+  return work[slot].subarray(0, length);
+}
+
 /** Smallest spread for which `widen` uses S⁻¹(I − B⁻¹)S⁻¹: its round-off is about ε/s² ≤ 2e-10 in absolute terms. */
 const MIN_SPREAD = 1e-3;
 
 function precisionByInverse(l: Float64Array, d: number, spread: Float64Array): Float64Array {
-  const m = covarianceFromCholesky(l, d);
+  const m = covarianceFromCholesky(l, d, workBuffer(2, d * d));
   for (let i = 0; i < d; i++) {
     for (let j = 0; j < d; j++) m[i * d + j] = ((i === j ? 1 : 0) - m[i * d + j]) / (spread[i] * spread[j]);
   }
@@ -143,7 +155,8 @@ function gaussianFromNatural(precision: Float64Array, h: Float64Array, d: number
   return { precision, mean: choleskySolve(chol, d, h), chol };
 }
 
-interface Pooled {
+/** A pooling: β's posterior under one τ and one pair of prior scales, with each site's widened term. */
+export interface Pooled {
   spread: Float64Array;
   terms: Map<string, Widened>;
   pBeta: Float64Array;
@@ -196,11 +209,11 @@ function withPrior(d: number, summed: SummedSites, prior: DiagonalPrior): Omit<P
 }
 
 /** β's posterior with the prior scales as given, or learned (priorScaleSearch.ts) when `scales` is null. */
-function poolSites(design: Design, settings: PageSettings, sites: Map<string, Site>, spread: Float64Array, scales: PriorScales | null): Pooled {
+function poolSites(design: Design, settings: PageSettings, sites: Map<string, Site>, spread: Float64Array, scales: PriorScales | null, start?: PriorScales | null): Pooled {
   const d = design.dimension;
   const summed = sumSites(d, sites, spread);
   const at = (chosen: PriorScales): Pooled => ({ ...withPrior(d, summed, priorFor(design, settings, chosen)), scales: chosen });
-  return scales !== null ? at(scales) : searchPriorScales(at, design.pairBase.length > 0).value;
+  return scales !== null ? at(scales) : searchPriorScales(at, design.pairBase.length > 0, start ?? UNIT_SCALES).value;
 }
 
 /** The log evidence log Z(T) of the sites (up to terms free of T) under β's prior `prior`, for tests and diagnostics. */
@@ -211,7 +224,7 @@ export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, 
 /**
  * Which hyperparameters to use: τ and the prior scales as given (`learn` false; null means the
  * settings), or learned (`learn` true): τ by a search that starts at the grid step nearest `tau`,
- * the prior scales over their whole grid at each τ. With `integrate`, the posteriors average over
+ * the prior scales at each τ by a walk that starts at `scales` (priorScaleSearch.ts). With `integrate`, the posteriors average over
  * τ's posterior on the grid instead of using one τ (spreadMixture.ts); the prior scales stay as chosen.
  */
 export interface SpreadChoice {
@@ -219,6 +232,11 @@ export interface SpreadChoice {
   scales?: PriorScales | null;
   learn: boolean;
   integrate?: boolean;
+  /**
+   * Filled with the poolings the τ search evaluated, by grid step, so that `integrateSpread` on
+   * the same sites reuses them instead of widening every site again (refit.ts).
+   */
+  poolings?: Map<number, Pooled>;
 }
 
 /**
@@ -233,29 +251,36 @@ export function computePosteriors(
   choice: SpreadChoice = { tau: null, learn: true },
 ): Posteriors {
   const scales = choice.learn ? null : (choice.scales ?? UNIT_SCALES);
-  const at = (tau: number, chosen: PriorScales | null = scales): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), chosen);
+  const at = (tau: number, chosen: PriorScales | null = scales): Pooled => poolSites(design, settings, sites, segmentSpreads(design, settings, tau), chosen, choice.scales);
   const setting = settings.segmentSpread;
   const pooled = !choice.learn
     ? at(choice.tau ?? setting)
     : !spreadIdentified(sites)
       ? at(setting)
-      : searchSpread((k) => at(setting * spreadFactor(k)), nearestStep(choice.tau, setting)).value;
+      : searchSpread((k) => {
+          const pool = at(setting * spreadFactor(k));
+          choice.poolings?.set(k, pool);
+          return pool;
+        }, nearestStep(choice.tau, setting)).value;
   const chosen = posteriorsAt(design, settings, sites, pooled, [...(only ?? sites.keys())]);
-  return choice.integrate ? integrateSpread(design, settings, sites, chosen) : chosen;
+  return choice.integrate ? integrateSpread(design, settings, sites, chosen, choice.poolings) : chosen;
 }
 
 /**
  * `chosen` (posteriors at one τ on the grid) averaged over τ's posterior on the grid, with the
  * prior scales fixed at chosen's (spreadSearch.ts `spreadPosterior`, spreadMixture.ts); unchanged
- * when τ is not identified (fewer than two segments with data) or not in use.
+ * when τ is not identified (fewer than two segments with data) or not in use. `poolings` holds
+ * poolings of these same sites already computed (SpreadChoice); those at chosen's prior scales are reused.
  */
-export function integrateSpread(design: Design, settings: PageSettings, sites: Map<string, Site>, chosen: Posteriors): Posteriors {
+export function integrateSpread(design: Design, settings: PageSettings, sites: Map<string, Site>, chosen: Posteriors, poolings?: Map<number, Pooled>): Posteriors {
   const setting = settings.segmentSpread;
   if (!spreadIdentified(sites) || !(setting > 0) || design.dimension < 2) return chosen;
   const step = nearestStep(chosen.segmentSpread, setting);
   const segments = [...chosen.segments.keys()];
   const weighted = spreadPosterior<{ logEvidence: number; pool: Pooled | null }>(step, (k) => {
     if (k === step) return { logEvidence: chosen.logEvidence, pool: null };
+    const known = poolings?.get(k);
+    if (known && known.scales.main === chosen.priorScales.main && known.scales.interaction === chosen.priorScales.interaction) return { logEvidence: known.logEvidence, pool: known };
     const pool = poolSites(design, settings, sites, segmentSpreads(design, settings, setting * spreadFactor(k)), chosen.priorScales);
     return { logEvidence: pool.logEvidence, pool };
   });
@@ -283,7 +308,7 @@ function posteriorsAt(design: Design, settings: PageSettings, sites: Map<string,
     const term = terms.get(segment);
     if (!site || !term) continue;
     const where = `the posterior of segment "${segment}"`;
-    const pLoo = new Float64Array(d * d);
+    const pLoo = workBuffer(3, d * d); // read only by the widen below
     const hLoo = new Float64Array(d);
     for (let i = 0; i < d * d; i++) pLoo[i] = pBeta[i] - term.m[i];
     for (let i = 0; i < d; i++) hLoo[i] = hBeta[i] - term.v[i];

@@ -12,9 +12,12 @@
  */
 import { fail } from "../errors.ts";
 
-/** Lower Cholesky factor L with A = L Lᵀ, or null when A is not (numerically) positive definite. */
-export function cholesky(a: Float64Array, d: number): Float64Array | null {
-  const l = new Float64Array(d * d);
+/**
+ * Lower Cholesky factor L with A = L Lᵀ, or null when A is not (numerically) positive definite.
+ * Written into `out` when given (a work buffer of length d², overwritten), else into a new array.
+ */
+export function cholesky(a: Float64Array, d: number, out?: Float64Array): Float64Array | null {
+  const l = out ? out.fill(0, 0, d * d) : new Float64Array(d * d);
   for (let i = 0; i < d; i++) {
     const ri = i * d;
     for (let j = 0; j <= i; j++) {
@@ -67,19 +70,19 @@ export function symmetrize(a: Float64Array, d: number): void {
  * Cholesky factor of a matrix that should be symmetric positive definite, repairing small
  * defects (asymmetry, round-off indefiniteness) in place; throws NUMERICAL_FAILURE otherwise.
  */
-export function factorSpd(a: Float64Array, d: number, where: string): Float64Array {
+export function factorSpd(a: Float64Array, d: number, where: string, out?: Float64Array): Float64Array {
   for (let i = 0; i < a.length; i++) {
     if (!Number.isFinite(a[i])) throw fail("NUMERICAL_FAILURE", { where, reason: "a matrix entry is not finite" });
   }
   symmetrize(a, d);
-  const first = cholesky(a, d);
+  const first = cholesky(a, d, out);
   if (first) return first;
   let scale = 0;
   for (let i = 0; i < d; i++) scale = Math.max(scale, Math.abs(a[i * d + i]));
   if (!(scale > 0)) throw fail("NUMERICAL_FAILURE", { where, reason: "the matrix has a zero diagonal" });
   for (let jitter = scale * 1e-12; jitter <= scale * 1e-3; jitter *= 10) {
     for (let i = 0; i < d; i++) a[i * d + i] += jitter;
-    const l = cholesky(a, d);
+    const l = cholesky(a, d, out);
     if (l) return l;
     for (let i = 0; i < d; i++) a[i * d + i] -= jitter;
   }
@@ -143,9 +146,11 @@ export function choleskyInverse(l: Float64Array, d: number): Float64Array {
  * A⁻¹ = L⁻ᵀL⁻¹ from A's Cholesky factor with contiguous memory access: the columns of W = L⁻¹ by
  * forward substitution from their diagonal (d³/6), then (A⁻¹)ᵢⱼ = Σ_{m ≥ max(i,j)} W_mi W_mj (d³/6).
  * Several times faster than `choleskyInverse`, whose back substitution walks L by columns.
+ * `work`, when given, is a d² buffer used for W (overwritten; only entries at or below the
+ * diagonal of each column are written and read).
  */
-export function covarianceFromCholesky(l: Float64Array, d: number): Float64Array {
-  const w = new Float64Array(d * d); // column j of W at w[j·d …], zero above j
+export function covarianceFromCholesky(l: Float64Array, d: number, work?: Float64Array): Float64Array {
+  const w = work ?? new Float64Array(d * d); // column j of W at w[j·d …]
   for (let j = 0; j < d; j++) {
     const c = j * d;
     w[c + j] = 1 / l[j * d + j];

@@ -22,7 +22,7 @@
  */
 import { rowBlock, type SegmentCounts } from "./counts.ts";
 import type { Design } from "./design.ts";
-import { computePosteriors, integrateSpread, type Posteriors, type SpreadChoice } from "./hierarchy.ts";
+import { computePosteriors, integrateSpread, type Pooled, type Posteriors, type SpreadChoice } from "./hierarchy.ts";
 import { laplaceFit, likelihoodSite, type RowBlock } from "./newton.ts";
 import type { PageSettings } from "./settings.ts";
 import { type SegmentData, type Site } from "./state.ts";
@@ -55,7 +55,9 @@ export function refit(design: Design, settings: PageSettings, inputs: Map<string
     modes.set(segment, input.mode);
     sites.set(segment, siteAt(d, input, blocks.get(segment)!, input.mode));
   }
-  let choice = spread;
+  // Each pooling computed for the current sites, by τ's grid step, for integrateSpread to reuse.
+  let poolings = new Map<number, Pooled>();
+  let choice: SpreadChoice = { ...spread, poolings };
   let posteriors = computePosteriors(design, settings, sites, undefined, choice);
   let sweeps = 0;
   while (sweeps < MAX_SWEEPS) {
@@ -68,13 +70,14 @@ export function refit(design: Design, settings: PageSettings, inputs: Map<string
       sites.set(segment, siteAt(d, input, block, fit.mode));
     }
     const { segmentSpread: tau, priorScales } = posteriors;
-    choice = { tau, scales: priorScales, learn: spread.learn };
+    poolings = new Map();
+    choice = { tau, scales: priorScales, learn: spread.learn, poolings };
     posteriors = computePosteriors(design, settings, sites, undefined, choice);
     const same = posteriors.segmentSpread === tau && posteriors.priorScales.main === priorScales.main && posteriors.priorScales.interaction === priorScales.interaction;
     if (same && converged(d, posteriors, modes)) break;
   }
   // The fit runs at τ's most probable value; the posteriors it returns average over τ (spreadMixture.ts).
-  if (spread.learn) posteriors = integrateSpread(design, settings, sites, posteriors);
+  if (spread.learn) posteriors = integrateSpread(design, settings, sites, posteriors, poolings);
   const segments = new Map<string, SegmentData>();
   for (const [segment, input] of inputs) segments.set(segment, { counts: input.counts, mode: modes.get(segment)!, site: sites.get(segment)! });
   return { segments, posteriors, sweeps };
