@@ -224,8 +224,9 @@ export function logEvidence(d: number, prior: DiagonalPrior, sites: Map<string, 
 /**
  * Which hyperparameters to use: τ and the prior scales as given (`learn` false; null means the
  * settings), or learned (`learn` true): τ by a search that starts at the grid step nearest `tau`,
- * the prior scales at each τ by a walk that starts at `scales` (priorScaleSearch.ts). With `integrate`, the posteriors average over
- * τ's posterior on the grid instead of using one τ (spreadMixture.ts); the prior scales stay as chosen.
+ * the prior scales at each τ by a walk that starts at `scales` (priorScaleSearch.ts). With
+ * `integrate`, the posteriors average over τ's posterior on the grid instead of using one τ
+ * (spreadMixture.ts); the prior scales stay as chosen.
  */
 export interface SpreadChoice {
   tau: number | null;
