@@ -80,7 +80,10 @@ const NEIGHBOURS: [number, number][] = [
   [0, -1],
 ];
 
-/** Index in SCALE_MULTIPLES of the multiple nearest `multiple` in log scale (1 for a stored value off the grid). */
+/**
+ * Index in SCALE_MULTIPLES of the multiple nearest `multiple` in log scale — log₂ of it, since the
+ * grid is 2⁰ … 2⁴ — clamped to the grid (index 0 for a value that is not a positive number).
+ */
 function gridIndex(multiple: number): number {
   const i = Math.round(Math.log2(multiple));
   return Number.isFinite(i) ? Math.max(0, Math.min(SCALE_MULTIPLES.length - 1, i)) : 0;

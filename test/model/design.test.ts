@@ -9,6 +9,7 @@ import {
   parseCombinationKey,
   type PageDefinition,
 } from "../../src/model/index.ts";
+import { slotsInvolving, writeActiveFeatures } from "../../src/model/design.ts";
 import { page } from "./engineFixtures.ts";
 
 const landing: PageDefinition = {
@@ -89,6 +90,33 @@ describe("buildDesign", () => {
     expect(d.pairs).toEqual([[0, 1]]);
     expect(d.dimension).toBe(1 + 7 + 4);
   });
+});
+
+describe("which feature slots involve a factor", () => {
+  // Checked against the encoding itself: a slot involves f exactly when changing f's level alone
+  // changes the feature written there, and at f's reference level such a slot is the zero slot.
+  for (const [label, design] of [["all pairs", page([3, 2, 4])], ["one pair", page([3, 2, 4], { interactions: [["f0", "f2"]] })]] as const) {
+    it(`match the slots that change with the factor's level (${label})`, () => {
+      const a = new Int32Array(design.activeCount);
+      const b = new Int32Array(design.activeCount);
+      const combos = allowedCombinations(design);
+      design.factors.forEach((_, f) => {
+        const involves = slotsInvolving(design, f);
+        const changes = new Array<boolean>(design.activeCount).fill(false);
+        for (const c of combos) {
+          writeActiveFeatures(design, c, a, 0);
+          for (let l = 0; l < design.sizes[f]; l++) {
+            const other = c.slice();
+            other[f] = l;
+            writeActiveFeatures(design, other, b, 0);
+            for (let k = 0; k < a.length; k++) if (a[k] !== b[k]) changes[k] = true;
+          }
+          if (c[f] === 0) for (let k = 0; k < a.length; k++) if (involves[k]) expect(a[k]).toBe(design.dimension);
+        }
+        expect([...involves].map(Boolean)).toEqual(changes);
+      });
+    });
+  }
 });
 
 describe("invalid definitions are rejected with the typed error naming the part", () => {

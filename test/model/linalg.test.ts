@@ -1,7 +1,7 @@
 import { CholeskyDecomposition, inverse, Matrix } from "ml-matrix";
 import { describe, expect, it } from "vitest";
 import { createRng } from "../../src/model/index.ts";
-import { cholesky, choleskyInverse, choleskySolve, covarianceFromCholesky, inverseDiagonal } from "../../src/model/linalg.ts";
+import { cholesky, choleskyInverse, choleskySolve, covarianceFromCholesky, factorSpd, inverseDiagonal } from "../../src/model/linalg.ts";
 
 /** A random symmetric positive-definite matrix A = BᵀB + I. */
 function spd(d: number, seed: number): Float64Array {
@@ -37,6 +37,21 @@ describe("dense SPD linear algebra agrees with ml-matrix (reference library)", (
         for (let j = 0; j < d; j++) expect(inv[i * d + j]).toBeCloseTo(refInv.get(i, j), 10);
         for (let j = 0; j < d; j++) expect(covariance[i * d + j]).toBeCloseTo(refInv.get(i, j), 10);
       }
+    }
+  });
+
+  it("gives the same factor and inverse when written into reused work buffers", () => {
+    // Buffers left dirty by an earlier, different matrix (as widen's are between calls).
+    const d = 12;
+    const out = new Float64Array(d * d).fill(7);
+    const work = new Float64Array(d * d).fill(-3);
+    for (const seed of [1, 2]) {
+      const a = spd(d, seed);
+      const l = cholesky(a, d, out)!;
+      expect(l).toBe(out);
+      expect([...l]).toEqual([...cholesky(a, d)!]);
+      expect([...factorSpd(a.slice(), d, "test", out)]).toEqual([...cholesky(a, d)!]);
+      expect([...covarianceFromCholesky(l, d, work)]).toEqual([...covarianceFromCholesky(cholesky(a, d)!, d)]);
     }
   });
 
