@@ -63,6 +63,12 @@ export async function openDatabase(options: OpenOptions = {}): Promise<Database>
   // An idle connection dropped by the server (restart, failover) must not crash the process;
   // the pool discards it and the next query reconnects or fails with DATABASE_UNAVAILABLE.
   pool.on("error", (error) => console.warn(`facetwise: database connection lost: ${error.message}`));
+  // A connection has no "error" listener while it is handed from the pool to a caller, and pg
+  // emits a server's FATAL (a terminated backend) synchronously if it arrives in the same read as
+  // the reply that freed the connection: with nobody listening that event crashes the process.
+  // So every connection keeps a listener for life; the failing query still reports the error to
+  // its caller, and the pool discards a connection that is no longer queryable when it comes back.
+  pool.on("connect", (client) => client.on("error", ignoreConnectionError));
   const prisma = new PrismaClient({ adapter: new PrismaPg(pool), transactionOptions: TRANSACTIONS[kind] });
 
   let closed = false;
@@ -148,4 +154,8 @@ export function redact(url: string): string {
   } catch {
     return "the configured database";
   }
+}
+
+function ignoreConnectionError(): void {
+  // reported by the query that fails on the connection, or by the pool's "error" event
 }

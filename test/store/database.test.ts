@@ -169,6 +169,29 @@ describe("embedded database", () => {
 });
 
 forEachDatabase("openDatabase", (open, target) => {
+  // Node's events docs: an "error" emitted with no listener is thrown. pg emits a server's FATAL
+  // (57P01, a terminated backend) as "error" on the connection, also while the pool hands it over.
+  it("keeps an error listener on every connection, checked out or idle, so a dropped one cannot crash the process", async () => {
+    const db = await open();
+    try {
+      const fatal = Object.assign(new Error("terminating connection due to administrator command"), { code: "57P01" });
+      const thrown: unknown[] = [];
+      for (let i = 0; i < 2; i++) { // a new connection, then one that has been through the pool
+        const client = await db.pool.connect();
+        try {
+          client.emit("error", fatal);
+        } catch (error) {
+          thrown.push(error);
+        }
+        client.release(i === 0 ? undefined : true);
+      }
+      expect(thrown).toEqual([]);
+      expect((await db.pool.query("SELECT 1 AS one")).rows[0].one).toBe(1);
+    } finally {
+      await db.close();
+    }
+  });
+
   it("closes without leaving sockets or servers open, and close() twice is harmless", async () => {
     const before = await settledHandles();
     const db = await open();

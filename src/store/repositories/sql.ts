@@ -12,7 +12,7 @@ export interface Queryable {
 
 /** Runs `work` in one transaction on one pooled connection; rolls back on any error. */
 export async function inTransaction<T>(pool: Pool, work: (client: PoolClient) => Promise<T>): Promise<T> {
-  const client = await checkout(pool);
+  const client = await pool.connect();
   let broken = false;
   try {
     await client.query("BEGIN");
@@ -29,22 +29,7 @@ export async function inTransaction<T>(pool: Pool, work: (client: PoolClient) =>
   }
 }
 
-/**
- * A pooled connection for a transaction. A connection that dies while checked out emits "error"
- * besides failing its query; without a listener that event would crash the process.
- */
-export async function checkout(pool: Pool): Promise<PoolClient> {
-  const client = await pool.connect();
-  client.on("error", ignore);
-  return client;
-}
-
-/** Returns a connection to the pool; a broken one is discarded and keeps its listener while it dies. */
+/** Returns a connection to the pool; a broken one (its ROLLBACK failed) is discarded. */
 export function release(client: PoolClient, broken: boolean): void {
-  if (!broken) client.off("error", ignore);
   client.release(broken || undefined);
-}
-
-function ignore(): void {
-  // the failing query reports the error to its caller
 }
