@@ -6,7 +6,7 @@ import { parseArgs } from "node:util";
 import { fail } from "../errors.ts";
 import { DEFAULT_DATA_DIR, openDatabase } from "../store/database.ts";
 import { PageService } from "../service/pages.ts";
-import { foldContext } from "../service/folds.ts";
+import { FoldLoop } from "../service/folds.ts";
 import { ReportService } from "../service/reports.ts";
 import { ExportService } from "../service/exports.ts";
 
@@ -36,8 +36,8 @@ export async function run(argv: string[]): Promise<number> {
   if (positionals.length !== 1) throw fail("INVALID_OPTION", { option: "<page>", reason: "give exactly one page key; see facetwise export --help" });
   const db = await openDatabase({ url: process.env.DATABASE_URL || undefined, dataDir: values.data, migrate: false });
   try {
-    // exporting never folds; the context is only a constructor argument (its thread never starts)
-    const pages = new PageService(db.pool, foldContext(false));
+    // exporting never folds; the fold loop is only a constructor argument (never started, no thread)
+    const pages = new PageService(db.pool, new FoldLoop(db.pool, false));
     const exports = new ExportService(pages, new ReportService(db.pool, pages));
     const key = positionals[0];
     process.stdout.write(format === "csv" ? await exports.csv(key) : JSON.stringify(await exports.json(key), null, 2) + "\n");

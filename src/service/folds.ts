@@ -11,14 +11,16 @@
  * transaction lock after checking that nothing moved: the model version is the one it read and
  * the picks it marks are exactly the picks it folded (else it discards the result and the next
  * pass folds again). On PostgreSQL it also holds a session advisory lock while computing, so other
- * processes skip the page rather than compute the same fold. Page creation and edits fold inside
- * their own transaction (foldInTransaction).
+ * processes skip the page rather than compute the same fold. Page creation folds inside its own
+ * transaction (foldInTransaction); an edit commits first and asks for a fold after (`refit`),
+ * because at the dimension limit a fold of every segment takes longer than anyone should wait for
+ * an answer.
  */
 import { EventEmitter } from "node:events";
 import type { Pool, PoolClient } from "pg";
 import { serializeState } from "../model/index.ts";
 import type { Design, FoldCycleInput, FoldCycleOutput, ModelState, PageSettings, RetiredEntry } from "../model/index.ts";
-import { checkout, inTransaction, release, type Queryable } from "../store/repositories/sql.ts";
+import { inTransaction, release, type Queryable } from "../store/repositories/sql.ts";
 import { withRetry } from "../store/retry.ts";
 import { loadPageById } from "../store/repositories/pages.ts";
 import {
@@ -49,7 +51,7 @@ export interface FoldContext {
 }
 
 /** A fold context with its own fold thread; stop() ends the thread. */
-export function foldContext(notify: boolean): FoldContext & { stop(): Promise<void> } {
+function foldContext(notify: boolean): FoldContext & { stop(): Promise<void> } {
   const thread = new FoldThread();
   return { notify, compute: (input) => thread.run(input), stop: () => thread.stop() };
 }
@@ -79,11 +81,12 @@ function entryToRetired(e: RetiredEntry): RetiredRow {
 
 /** What a fold reads before computing. */
 interface FoldInputs {
-  pageId: number; key: string; status: string; version: number; now: Date;
+  pageId: number; key: string; status: string; version: number; now: Date; lastFoldAt: Date | null;
   design: Design; settings: PageSettings; state: ModelState; segments: string[]; retired: RetiredEntry[];
 }
 
-type Due = { due: true } | { due: false; reason: "paused" | "not-due" };
+/** `required`: an edit left the page unfolded (no last fold), so it folds even with nothing new. */
+type Due = { due: true; required: boolean } | { due: false; reason: "paused" | "not-due" };
 
 async function readInputs(q: Queryable, pageId: number, lock: boolean): Promise<{ inputs: FoldInputs; due: Due } | null> {
   const row = await foldPageRow(q, pageId, lock);
@@ -95,11 +98,11 @@ async function readInputs(q: Queryable, pageId: number, lock: boolean): Promise<
   const snapshot = row.modelVersion > 0 ? await loadSnapshot(q, pageId, row.modelVersion) : null;
   const due: Due = row.status === "paused" ? { due: false, reason: "paused" }
     : row.lastFoldAt && row.lastFoldAt.getTime() + settings.foldIntervalSeconds * 1000 > now.getTime() ? { due: false, reason: "not-due" }
-    : { due: true };
+    : { due: true, required: row.lastFoldAt === null };
   return {
     due,
     inputs: {
-      pageId, key: row.key, status: row.status, version: row.modelVersion, now, design, settings,
+      pageId, key: row.key, status: row.status, version: row.modelVersion, now, lastFoldAt: row.lastFoldAt, design, settings,
       state: await loadState(q, pageId, snapshot, design, settings),
       segments: await segmentKeys(q, pageId, settings.maxSegments),
       retired: (await loadRetired(q, pageId)).map(retiredToEntry),
@@ -157,8 +160,11 @@ const sameRows = (a: AggregateRow[], b: AggregateRow[]) =>
 export class FoldLoop extends EventEmitter {
   private timer: NodeJS.Timeout | null = null;
   private running: Promise<unknown> | null = null;
-  /** On the embedded database advisory locks are shared by all connections: also exclude in-process. */
-  private readonly folding = new Set<number>();
+  /**
+   * The fold running for each page in this process. On the embedded database advisory locks are
+   * shared by all connections, so this also keeps two folds of one page apart.
+   */
+  private readonly folding = new Map<number, Promise<FoldResult>>();
   private readonly thread = foldContext(false);
   readonly context: FoldContext;
   private lastError = "";
@@ -170,13 +176,27 @@ export class FoldLoop extends EventEmitter {
   }
 
   /** Folds one page if it is due (or always, with force); safe to call concurrently. */
-  async foldPage(pageId: number, force = false): Promise<FoldResult> {
-    if (this.folding.has(pageId)) return { folded: false, page: null, reason: "locked" };
-    this.folding.add(pageId);
+  foldPage(pageId: number, force = false): Promise<FoldResult> {
+    if (this.folding.has(pageId)) return Promise.resolve({ folded: false, page: null, reason: "locked" });
+    const running = this.foldExclusively(pageId, force).finally(() => this.folding.delete(pageId));
+    this.folding.set(pageId, running);
+    return running;
+  }
+
+  /**
+   * Folds a page now, once any fold of it already running in this process has ended (a page
+   * edit's refit: that fold read the page before the edit, so its commit is discarded as raced).
+   */
+  async refit(pageId: number): Promise<FoldResult> {
+    for (let running = this.folding.get(pageId); running; running = this.folding.get(pageId)) await running.catch(() => undefined);
+    return this.foldPage(pageId, true);
+  }
+
+  private async foldExclusively(pageId: number, force: boolean): Promise<FoldResult> {
     let session: PoolClient | null = null;
     try {
       if (this.crossProcess) {
-        session = await checkout(this.pool);
+        session = await this.pool.connect();
         if (!(await tryFoldSessionLock(session, pageId))) return { folded: false, page: null, reason: "locked" };
       }
       const result = await this.fold(session ?? this.pool, pageId, force, session);
@@ -189,7 +209,6 @@ export class FoldLoop extends EventEmitter {
         const unlocked = await releaseFoldSessionLock(session, pageId).then(() => true, () => false);
         release(session, !unlocked);
       }
-      this.folding.delete(pageId);
     }
   }
 
@@ -200,7 +219,7 @@ export class FoldLoop extends EventEmitter {
     if (!force && !due.due) return { folded: false, page: inputs.key, reason: due.reason };
     const started = performance.now();
     const rows = inputs.status === "paused" ? [] : await dueRows(q, pageId, inputs.now);
-    if (!force && rows.length === 0 && inputs.settings.halfLifeDays === null) {
+    if (!force && !(due.due && due.required) && rows.length === 0 && inputs.settings.halfLifeDays === null) {
       // Nothing new and no forgetting: the posterior would not move.
       await touchFold(q, pageId, inputs.now);
       return { folded: false, page: inputs.key, reason: "nothing-new" };
@@ -210,7 +229,9 @@ export class FoldLoop extends EventEmitter {
     const commit = async (client: PoolClient): Promise<FoldResult> => {
       if (!(await tryFoldLock(client, pageId))) return { folded: false, page: inputs.key, reason: "locked" };
       const row = await foldPageRow(client, pageId, true);
-      if (!row || row.modelVersion !== inputs.version || (row.status === "paused") !== (inputs.status === "paused")) {
+      // an edit that kept the model version (settings, status) still clears the last fold time
+      if (!row || row.modelVersion !== inputs.version || row.lastFoldAt?.getTime() !== inputs.lastFoldAt?.getTime()
+        || (row.status === "paused") !== (inputs.status === "paused")) {
         return { folded: false, page: inputs.key, reason: "raced" };
       }
       const marked = inputs.status === "paused" ? [] : await markDueAndAggregate(client, pageId, inputs.now, inputs.version + 1);

@@ -14,10 +14,10 @@ import {
   insertPage, listPages, loadPage, pageTotals, replaceDefinition, updateLevelValue, updatePageFields,
   type StoredFactor, type StoredPage,
 } from "../store/repositories/pages.ts";
-import { foldLock, insertSnapshot, loadSnapshot, foldPageRow, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
+import { foldLock, insertSnapshot, loadSnapshot, foldPageRow, requireFold, setModelVersion, databaseNow } from "../store/repositories/folds.ts";
 import { ignoreOpenPicks, openCombinations } from "../store/repositories/picks.ts";
 import { baselineKey, designOf, pageView, servable, settingsFrom, settingsOf, type PageView } from "./definition.ts";
-import { foldInTransaction, type FoldContext } from "./folds.ts";
+import { foldInTransaction, type FoldContext, type FoldResult } from "./folds.ts";
 import { newPublicKey } from "./auth.ts";
 import { asServiceError } from "./errors.ts";
 import { loadState } from "./modelState.ts";
@@ -47,6 +47,21 @@ export interface PagePatch {
 export interface Learned {
   action: "unchanged" | "kept" | "remapped"; message: string;
   keptFeatures: number; droppedFeatures: string[]; addedFeatures: string[]; droppedOpenPicks: number;
+  /** The fold the edit asked for was still running when the answer was sent (EDIT_FOLD_WAIT_MS). */
+  foldPending: boolean;
+}
+
+/**
+ * How long an edit's answer waits for the fold it asked for. Most pages fold in well under a
+ * second; at the dimension limit with many segments a fold takes minutes, and the edit is already
+ * committed, so the answer says the fold is still running instead of holding the request.
+ */
+export const EDIT_FOLD_WAIT_MS = 2000;
+
+/** What page edits need from the fold loop: the context page creation folds with, and a refit. */
+export interface EditFolds {
+  context: FoldContext;
+  refit(pageId: number): Promise<FoldResult>;
 }
 
 const SEGMENT_NAME = /^[A-Za-z0-9_.-]{1,64}$/;
@@ -72,7 +87,7 @@ function validatePage(input: PageDraft) {
 }
 
 export class PageService extends EventEmitter {
-  constructor(private readonly pool: Pool, private readonly fold: FoldContext) {
+  constructor(private readonly pool: Pool, private readonly folds: EditFolds) {
     super();
   }
 
@@ -105,7 +120,7 @@ export class PageService extends EventEmitter {
           key: input.key, name: input.name, publicKey: newPublicKey(), status: "active", segmentBy,
           interactions: definition.interactions, settings, baseline: baselineKey(design), factors, exclude: definition.exclude,
         });
-        await foldInTransaction(client, id, this.fold);
+        await foldInTransaction(client, id, this.folds.context);
       });
     } catch (error) {
       if ((error as { code?: string }).code === "23505") throw fail("PAGE_EXISTS", { page: input.key }, "key");
@@ -153,7 +168,7 @@ export class PageService extends EventEmitter {
    */
   async patch(key: string, patch: PagePatch, ifMatch?: string): Promise<{ page: PageView; learned: Learned; version: string }> {
     try {
-      const learned = await withRetry(() => inTransaction(this.pool, async (client) => {
+      const { learned, pageId, refold } = await withRetry(() => inTransaction(this.pool, async (client) => {
         const found = await loadPage(client, key);
         if (!found) throw fail("UNKNOWN_PAGE", { page: key }, "page");
         await foldLock(client, found.id);
@@ -179,6 +194,7 @@ export class PageService extends EventEmitter {
           const state = await loadState(client, page.id, snapshot, oldDesign, plan.settings);
           const remapped = remapState(state, oldDesign, plan.newDesign, plan.settings);
           await insertSnapshot(client, page.id, row.modelVersion + 1, serializeState(remapped), {}, await databaseNow(client));
+          // No allocations at this version until the fold below: serving shows the baseline meanwhile.
           await setModelVersion(client, page.id, row.modelVersion + 1, null);
           const stale = (await openCombinations(client, page.id)).filter((c) => !servable(plan.newDesign!, c));
           result = { ...result, droppedOpenPicks: await ignoreOpenPicks(client, page.id, stale) };
@@ -188,15 +204,36 @@ export class PageService extends EventEmitter {
         } else {
           for (const v of patch.levelValues ?? []) await updateLevelValue(client, page.id, v.factor, v.level, v.value);
         }
-        // Rebuild allocations now so the edit is served at once (not at the next scheduled fold).
-        if (plan.newDesign || plan.settingsChanged || patch.status !== undefined) await foldInTransaction(client, page.id, this.fold);
-        return result;
+        // Allocations are rebuilt now (not at the next scheduled fold), after this commit.
+        const refold = plan.newDesign !== null || plan.settingsChanged || patch.status !== undefined;
+        if (refold) await requireFold(client, page.id);
+        return { learned: result, pageId: page.id, refold };
       }));
       this.emit("changed", key);
+      if (refold && !(await this.foldAfterEdit(pageId))) {
+        learned.foldPending = true;
+        learned.message += ` The model is still being refitted to this edit in the background; until it is, visitors see ${learned.action === "remapped" ? "the baseline" : "the previous allocations"}.`;
+      }
       const { page, version } = await this.read(key);
       return { page, learned, version };
     } catch (error) {
       throw asServiceError(error);
+    }
+  }
+
+  /**
+   * Folds the page after an edit and waits up to EDIT_FOLD_WAIT_MS for it; true when it is done.
+   * A fold still running goes on in the background; one that fails or finds the page locked is
+   * left to the fold loop, which folds a page an edit left unfolded at its next pass.
+   */
+  private async foldAfterEdit(pageId: number): Promise<boolean> {
+    let timer: NodeJS.Timeout | undefined;
+    const waited = new Promise<boolean>((resolve) => { timer = setTimeout(() => resolve(false), EDIT_FOLD_WAIT_MS); });
+    const folded = this.folds.refit(pageId).then((r) => r.folded, () => false);
+    try {
+      return await Promise.race([folded, waited]);
+    } finally {
+      clearTimeout(timer);
     }
   }
 }
@@ -257,7 +294,7 @@ function planEdit(page: StoredPage, patch: PagePatch): EditPlan {
 
 /** What an edit does to what was learned, in words for the PATCH response. */
 function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolean, newDesign: Design | null): Learned {
-  const none: Learned = { action: "unchanged", message: "Nothing that affects learning changed.", keptFeatures: 0, droppedFeatures: [], addedFeatures: [], droppedOpenPicks: 0 };
+  const none: Learned = { action: "unchanged", message: "Nothing that affects learning changed.", keptFeatures: 0, droppedFeatures: [], addedFeatures: [], droppedOpenPicks: 0, foldPending: false };
   const oldDesign = designOf(page);
   const oldNames = oldDesign.featureNames;
   if (newDesign) {
@@ -269,7 +306,7 @@ function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolea
     const reached = new Set(Array.from(mapping).filter((j) => j >= 0));
     const added = newDesign.featureNames.filter((_, j) => !reached.has(j));
     return {
-      action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0,
+      action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0, foldPending: false,
       // The model refits from its visitor counts (re-keyed by the engine's remapState).
       message: `The model was refitted on the new design from the visitors seen so far: ${kept.length} coefficients carry over` +
         (dropped.length ? `, ${dropped.length} are re-estimated or gone (${dropped.join(", ")}); visitors who saw a removed level no longer count` : "") +

@@ -7,7 +7,7 @@
 import type { Pool, PoolClient } from "pg";
 import { fail, FacetwiseError } from "../errors.ts";
 import { asServiceError } from "./errors.ts";
-import { checkout, release } from "../store/repositories/sql.ts";
+import { release } from "../store/repositories/sql.ts";
 import { withRetry } from "../store/retry.ts";
 
 type Work<T> = (client: PoolClient) => Promise<T>;
@@ -82,7 +82,7 @@ export class WriteBatcher {
     let client: PoolClient | undefined;
     let broken = false;
     try {
-      client = await checkout(this.pool);
+      client = await this.pool.connect();
       const alone = batch.length === 1 && batch[0].single;
       if (!alone) await client.query("BEGIN");
       for (const item of batch) {

@@ -9,8 +9,9 @@ import { describe, expect, it } from "vitest";
 import { setTimeout as sleep } from "node:timers/promises";
 import { forEachDatabase } from "../support/databases.ts";
 import { startHarness, useHarness, testPage, type Harness } from "./harness.ts";
-import { FoldLoop, foldSeed } from "../../src/service/folds.ts";
-import { foldLogs, foldedRows, loadSnapshot } from "../../src/store/repositories/folds.ts";
+import { FoldLoop, foldSeed, type FoldContext } from "../../src/service/folds.ts";
+import type { FoldCycleInput, FoldCycleOutput } from "../../src/model/index.ts";
+import { foldLogs, foldedRows, loadAllocations, loadSnapshot } from "../../src/store/repositories/folds.ts";
 import { deserializeState, foldCycle, initialState, parseSettings, sitesOf } from "../../src/model/index.ts";
 import { designOf } from "../../src/service/definition.ts";
 import { loadPage } from "../../src/store/repositories/pages.ts";
@@ -171,8 +172,10 @@ forEachDatabase("fold loop", (open, target) => {
         const edited = await raceWith(() => h.admin("PATCH", `/pages/${page.key}`, { settings: { explorationFloor: 0.05 } }));
         expect(edited).toMatchObject({ folded: false, reason: "raced" });
       }
+      // refit waits for any fold of the page still running (the edit's own, which it answered without)
+      const refolded = await loop.refit(page.id);
       const version = (await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [page.id])).rows[0].model_version;
-      expect(await loop.foldPage(page.id, true)).toMatchObject({ folded: true, version: version + 1 });
+      expect(refolded).toMatchObject({ folded: true, version });
       expect(await states(h.db, page.id)).toEqual({ folded: 2 });
       // (the edit's own fold may have taken them first) — either way each trial and conversion was folded once
       expect((await foldLogs(h.db.pool, page.id)).reduce((sum, l) => sum + l.picks, 0)).toBe(2);
@@ -191,6 +194,69 @@ forEachDatabase("fold loop", (open, target) => {
       expect(results.filter((r) => r.folded)).toHaveLength(1);
       expect(results.find((r) => r.folded)).toMatchObject({ picks: 3 });
       expect((await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [page.id])).rows[0].model_version).toBe(2);
+    });
+  });
+
+  describe("page edits", () => {
+    const h = useHarness(open);
+    const loop = () => h.server.services.folds;
+    /** Runs `edit` while the fold loop computes with `compute` in place of the engine. */
+    const withCompute = async <T>(compute: (input: FoldCycleInput, engine: FoldContext["compute"]) => Promise<FoldCycleOutput>, edit: () => Promise<T>): Promise<T> => {
+      const context = loop().context as { compute: FoldContext["compute"] };
+      const engine = context.compute;
+      context.compute = (input) => compute(input, engine);
+      try {
+        return await edit();
+      } finally {
+        context.compute = engine;
+      }
+    };
+    const versionOf = async (pageId: number) => (await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [pageId])).rows[0].model_version as number;
+
+    it("answers an edit whose fold outlasts EDIT_FOLD_WAIT_MS at once, serves the baseline meanwhile, and finishes the fold in the background", async () => {
+      const page = await createPage(h, "slow-edit", {});
+      for (const v of ["s0", "s1", "s2"]) await h.pick(page, v, { source: "search" });
+      let release!: () => void;
+      const held = new Promise<void>((resolve) => { release = resolve; });
+      try {
+        const answer = await withCompute(async (input, engine) => {
+          await held;
+          return engine(input);
+        }, () => h.admin("PATCH", `/pages/${page.key}`, { addLevels: [{ factor: "button", name: "chat", value: "Chat with us" }] }));
+        expect(answer.status).toBe(200);
+        expect(answer.body.learned).toMatchObject({ action: "remapped", foldPending: true });
+        expect(answer.body.learned.message).toMatch(/still being refitted .* visitors see the baseline/);
+        // the edit is committed (a new version with the remapped model and no allocations yet)
+        expect(await loadAllocations(h.db.pool, page.id, await versionOf(page.id))).toEqual(new Map());
+        const served = await h.pick(page, "meanwhile", { source: "search" });
+        expect(served.body).toMatchObject({ key: "title=short|photo=shop|button=book", propensity: 1 });
+      } finally {
+        release();
+      }
+      const pending = await versionOf(page.id);
+      await waitUntil(async () => (await versionOf(page.id)) === pending + 1, 10_000);
+      expect((await loadAllocations(h.db.pool, page.id, pending + 1)).size).toBeGreaterThan(0);
+      // the new level is served once the fold is in
+      expect(JSON.stringify([...(await loadAllocations(h.db.pool, page.id, pending + 1)).values()])).toContain("button=chat");
+      // the pick served meanwhile came after the fold read the page: it waits for the next fold
+      expect(await states(h.db, page.id)).toEqual({ folded: 3, open: 1 });
+    });
+
+    it("leaves a page whose edit fold failed to the fold loop's next pass, which folds it with nothing new", async () => {
+      const page = await createPage(h, "failed-edit", {});
+      const before = await versionOf(page.id);
+      const answer = await withCompute(async () => {
+        throw new Error("the fold thread exited (code 1)");
+      }, () => h.admin("PATCH", `/pages/${page.key}`, { settings: { explorationFloor: 0.2 } }));
+      expect(answer.status).toBe(200);
+      expect(answer.body.learned).toMatchObject({ foldPending: true });
+      expect(answer.body.learned.message).toMatch(/visitors see the previous allocations/);
+      expect(await versionOf(page.id)).toBe(before);
+      const results = await loop().tick();
+      expect(results.find((r) => r.folded && r.page === page.key)).toMatchObject({ folded: true, version: before + 1, picks: 0 });
+      const allocation = [...(await loadAllocations(h.db.pool, page.id, before + 1)).values()][0] as { propensities: number[] };
+      // with a 0.2 floor each of the 10 allowed combinations gets at least (1 − b)·0.2/10, b = 0.01 (allocation.ts)
+      expect(Math.min(...allocation.propensities)).toBeGreaterThanOrEqual(0.99 * 0.2 / 10 - 1e-12);
     });
   });
 

@@ -50,6 +50,7 @@ export interface LearnedNote {
   droppedFeatures: string[];
   addedFeatures: string[];
   droppedOpenPicks: number;
+  foldPending: boolean;
 }
 
 export interface RateInterval { mean: number; lower: number; upper: number }

@@ -48,7 +48,15 @@ export async function foldPageRow(q: Queryable, pageId: number, lock: boolean): 
   return r ? { id: r.id, key: r.key, status: r.status, settings: r.settings, modelVersion: r.model_version, lastFoldAt: r.last_fold_at } : null;
 }
 
-/** Pages whose fold interval has passed (by the database clock), oldest fold first. */
+/**
+ * Marks a page's model as needing a fold now (after an edit): a page with no last fold is due at
+ * once and folds even with nothing new (FoldLoop). The fold that follows sets the time again.
+ */
+export async function requireFold(q: Queryable, pageId: number): Promise<void> {
+  await q.query("UPDATE page SET last_fold_at = NULL WHERE id = $1", [pageId]);
+}
+
+/** Pages whose fold interval has passed or that an edit left unfolded (by the database clock), oldest fold first. */
 export async function dueForFold(q: Queryable): Promise<number[]> {
   const { rows } = await q.query<{ id: number }>(
     `SELECT id FROM page
