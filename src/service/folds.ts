@@ -282,10 +282,18 @@ export class FoldLoop extends EventEmitter {
     this.timer = setTimeout(loop, everyMs);
   }
 
+  /** Resolves once no fold runs in this process (edits' folds run on after their answer). */
+  async idle(): Promise<void> {
+    while (this.running || this.folding.size > 0) {
+      await this.running;
+      await Promise.allSettled(this.folding.values());
+    }
+  }
+
   async stop(): Promise<void> {
     if (this.timer) clearTimeout(this.timer);
     this.timer = null;
-    await this.running;
+    await this.idle();
     await this.thread.stop();
   }
 }
