@@ -2,13 +2,19 @@
  * Retirement (DESIGN.md "Retired"): a combination is retired from a segment when, for
  * retireAfterFolds consecutive folds, its probability of being best is below retireProbability
  * AND its upper 95% credible bound on the conversion rate is below the leader's lower bound.
- * A retired combination is no longer served, but it is still scored every fold; as soon as the
- * rule no longer holds (typically after forgetting widened the posterior) it is reinstated and the
- * reinstatement is recorded with its reason. "No longer holds" must not mean Monte-Carlo noise:
- * with M samples a probability of 0.001 is one lucky sample, so the probability part counts only
- * when the number of samples in which the combination is best would be unlikely (< 1%) under
- * Binomial(M, retireProbability) — the upper tail of the binomial count of the sampler itself. The rule is common practice for pruning arms in
- * Bayesian adaptive designs (no single source); the thresholds are page settings.
+ * A retired combination is no longer served, but it is still scored every fold; when the rule no
+ * longer holds (typically after forgetting widened the posterior) it is reinstated and the
+ * reinstatement is recorded with its reason. "No longer holds" must mean neither Monte-Carlo
+ * noise nor a passing change of leader (DESIGN.md, round 2: decisions must not flip):
+ * - the probability part counts only when the number of samples in which the combination is best
+ *   would be unlikely (< 1%) under Binomial(M, retireProbability) — the upper tail of the binomial
+ *   count of the sampler itself (with M samples a probability of 0.001 is one lucky sample);
+ * - the bound part must fail for retireAfterFolds consecutive folds, as it had to hold for as many
+ *   to retire. Near-tied leaders take turns from fold to fold, and each has its own lower bound:
+ *   without this, one simulated run of the large-space scenario reinstated 2,250 combinations by
+ *   their bound (hundreds at each change of leader) and retired most of them again a fold later.
+ * The rule is common practice for pruning arms in Bayesian adaptive designs (no single source);
+ * the thresholds are page settings.
  */
 import type { PageSettings } from "./settings.ts";
 
@@ -30,7 +36,10 @@ export interface RetirementInput {
   upper: ArrayLike<number>;
   leader: number;
   leaderLower: number;
-  /** Consecutive dominated folds so far, by key (entries > 0 only). */
+  /**
+   * By key (entries > 0 only): for a combination in service, the consecutive folds it has met the
+   * rule; for a retired one, the consecutive folds its upper bound has not been below the leader's.
+   */
   counters: Map<string, number>;
   /** Currently retired combinations of this segment, by key. */
   active: Map<string, RetiredEntry>;
@@ -71,10 +80,13 @@ export function updateRetirement(input: RetirementInput): RetirementUpdate {
     const upper = input.upper[i];
     const dominated = i !== input.leader && p < settings.retireProbability && upper < input.leaderLower;
     if (input.active.has(key)) {
-      if (upper >= input.leaderLower) {
-        reinstated.set(key, `upper bound ${upper.toPrecision(3)} is no longer below the leader's lower bound ${input.leaderLower.toPrecision(3)}`);
-      } else if (p >= risen) {
+      const above = upper >= input.leaderLower ? (input.counters.get(key) ?? 0) + 1 : 0;
+      if (p >= risen) {
         reinstated.set(key, `probability of being best rose to ${p.toPrecision(3)} (above ${settings.retireProbability} beyond sampling noise)`);
+      } else if (above >= settings.retireAfterFolds) {
+        reinstated.set(key, `upper bound ${upper.toPrecision(3)} has not been below the leader's lower bound (now ${input.leaderLower.toPrecision(3)}) for ${above} folds`);
+      } else if (above > 0) {
+        counters.set(key, above);
       }
       continue;
     }

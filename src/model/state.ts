@@ -50,7 +50,10 @@ export interface ModelState {
   /** `now` of the last fold cycle (ms), for forgetting; null before the first. */
   lastFoldAt: number | null;
   segments: Map<string, SegmentData>;
-  /** segment → combination key → consecutive folds the combination met the retirement rule. */
+  /**
+   * segment → combination key → consecutive folds the combination met the retirement rule, or,
+   * once retired, the folds its bound part has failed (retirement.ts).
+   */
   dominated: Map<string, Map<string, number>>;
   /**
    * τ the last fold cycle learned (spreadSearch.ts): the posteriors served until the next fold use
