@@ -40,7 +40,7 @@ export const MODEL_CHANNEL = "facetwise_model";
 
 export type FoldResult =
   | { folded: true; page: string; version: number; picks: number; dropped: number; millis: number }
-  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" | "nothing-new" | "raced" };
+  | { folded: false; page: string | null; reason: "locked" | "not-due" | "paused" | "missing" | "nothing-new" | "raced" | "stopped" };
 
 /** How folds are computed and announced. */
 export interface FoldContext {
@@ -165,6 +165,9 @@ export class FoldLoop extends EventEmitter {
    * shared by all connections, so this also keeps two folds of one page apart.
    */
   private readonly folding = new Map<number, Promise<FoldResult>>();
+  /** Edits' refits, including those still waiting for a running fold (idle() waits for them too). */
+  private readonly refits = new Set<Promise<FoldResult>>();
+  private stopped = false;
   private readonly thread = foldContext(false);
   readonly context: FoldContext;
   private lastError = "";
@@ -187,9 +190,17 @@ export class FoldLoop extends EventEmitter {
    * Folds a page now, once any fold of it already running in this process has ended (a page
    * edit's refit: that fold read the page before the edit, so its commit is discarded as raced).
    */
-  async refit(pageId: number): Promise<FoldResult> {
-    for (let running = this.folding.get(pageId); running; running = this.folding.get(pageId)) await running.catch(() => undefined);
-    return this.foldPage(pageId, true);
+  refit(pageId: number): Promise<FoldResult> {
+    const refit = (async (): Promise<FoldResult> => {
+      for (let running = this.folding.get(pageId); running; running = this.folding.get(pageId)) await running.catch(() => undefined);
+      // stopping: the page keeps no last fold time, so the next start folds it
+      if (this.stopped) return { folded: false, page: null, reason: "stopped" };
+      return this.foldPage(pageId, true);
+    })();
+    this.refits.add(refit);
+    const forget = () => this.refits.delete(refit);
+    refit.then(forget, forget);
+    return refit;
   }
 
   private async foldExclusively(pageId: number, force: boolean): Promise<FoldResult> {
@@ -284,13 +295,14 @@ export class FoldLoop extends EventEmitter {
 
   /** Resolves once no fold runs in this process (edits' folds run on after their answer). */
   async idle(): Promise<void> {
-    while (this.running || this.folding.size > 0) {
+    while (this.running || this.folding.size > 0 || this.refits.size > 0) {
       await this.running;
-      await Promise.allSettled(this.folding.values());
+      await Promise.allSettled([...this.folding.values(), ...this.refits]);
     }
   }
 
   async stop(): Promise<void> {
+    this.stopped = true;
     if (this.timer) clearTimeout(this.timer);
     this.timer = null;
     await this.idle();

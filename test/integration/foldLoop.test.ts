@@ -242,6 +242,26 @@ forEachDatabase("fold loop", (open, target) => {
       expect(await states(h.db, page.id)).toEqual({ folded: 3, open: 1 });
     });
 
+    it("lets a stopping loop finish the fold it runs but start no refit that was still waiting", async () => {
+      const page = await createPage(h, "stopping", {});
+      const own = new FoldLoop(h.db.pool, false);
+      const context = own.context as { compute: FoldContext["compute"] };
+      const engine = context.compute;
+      let release!: () => void;
+      const held = new Promise<void>((resolve) => { release = resolve; });
+      context.compute = async (input) => {
+        await held;
+        return engine(input);
+      };
+      const running = own.foldPage(page.id, true);
+      const waiting = own.refit(page.id);
+      const stopped = own.stop();
+      release();
+      await stopped;
+      expect(await running).toMatchObject({ folded: true });
+      expect(await waiting).toEqual({ folded: false, page: null, reason: "stopped" });
+    });
+
     it("leaves a page whose edit fold failed to the fold loop's next pass, which folds it with nothing new", async () => {
       const page = await createPage(h, "failed-edit", {});
       const before = await versionOf(page.id);

@@ -13,6 +13,7 @@ interface JStatEngineParts {
   normal: { cdf(x: number, mean: number, sd: number): number; inv(p: number, mean: number, sd: number): number };
   beta: { pdf(x: number, a: number, b: number): number; cdf(x: number, a: number, b: number): number; inv(p: number, a: number, b: number): number };
   chisquare: { inv(p: number, dof: number): number };
+  binomial: { cdf(k: number, n: number, p: number): number };
 }
 
 export const jStat = createRequire(import.meta.url)("jstat") as JStatEngineParts;
