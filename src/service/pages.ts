@@ -168,7 +168,7 @@ export class PageService extends EventEmitter {
    */
   async patch(key: string, patch: PagePatch, ifMatch?: string): Promise<{ page: PageView; learned: Learned; version: string }> {
     try {
-      const { learned, pageId, refold } = await withRetry(() => inTransaction(this.pool, async (client) => {
+      const { learned, pageId, refold, redesigned } = await withRetry(() => inTransaction(this.pool, async (client) => {
         const found = await loadPage(client, key);
         if (!found) throw fail("UNKNOWN_PAGE", { page: key }, "page");
         await foldLock(client, found.id);
@@ -207,12 +207,12 @@ export class PageService extends EventEmitter {
         // Allocations are rebuilt now (not at the next scheduled fold), after this commit.
         const refold = plan.newDesign !== null || plan.settingsChanged || patch.status !== undefined;
         if (refold) await requireFold(client, page.id);
-        return { learned: result, pageId: page.id, refold };
+        return { learned: result, pageId: page.id, refold, redesigned: plan.newDesign !== null };
       }));
       this.emit("changed", key);
       if (refold && !(await this.foldAfterEdit(pageId))) {
         learned.foldPending = true;
-        learned.message += ` The model is still being refitted to this edit in the background; until it is, visitors see ${learned.action === "remapped" ? "the baseline" : "the previous allocations"}.`;
+        learned.message += ` The model is still being refitted to this edit in the background; until it is, visitors see ${redesigned ? "the baseline" : "the previous allocations"}.`;
       }
       const { page, version } = await this.read(key);
       return { page, learned, version };
@@ -308,7 +308,7 @@ function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolea
     return {
       action: "remapped", keptFeatures: kept.length, droppedFeatures: dropped, addedFeatures: added, droppedOpenPicks: 0, foldPending: false,
       // The model refits from its visitor counts (re-keyed by the engine's remapState).
-      message: `The model was refitted on the new design from the visitors seen so far: ${kept.length} coefficients carry over` +
+      message: `The model refits on the new design from the visitors seen so far: ${kept.length} coefficients carry over` +
         (dropped.length ? `, ${dropped.length} are re-estimated or gone (${dropped.join(", ")}); visitors who saw a removed level no longer count` : "") +
         (added.length ? `, ${added.length} new ones start from the prior (${added.join(", ")}); visitors from before a new factor count as its first level` : "") + ".",
     };
@@ -317,7 +317,7 @@ function explainEdit(page: StoredPage, patch: PagePatch, settingsChanged: boolea
   if (patch.status === "paused" && page.status !== "paused") parts.push("Paused: visitors now get the baseline and nothing is learned until you resume; everything learned so far is kept.");
   if (patch.status === "frozen" && page.status !== "frozen") parts.push("Frozen: each segment's visitors now get its leader with no exploration; outcomes are still folded and everything learned is kept.");
   if (patch.status === "active" && page.status !== "active") parts.push("Resumed: serving from the learned allocations again; nothing learned was lost.");
-  if (settingsChanged) parts.push("Settings changed: everything learned is kept and the allocations were rebuilt with the new settings.");
+  if (settingsChanged) parts.push("Settings changed: everything learned is kept and the allocations are rebuilt with the new settings.");
   return parts.length === 0 ? { ...none, keptFeatures: oldNames.length } : { ...none, action: "kept", keptFeatures: oldNames.length, message: parts.join(" ") };
 }
 

@@ -46,6 +46,18 @@ const states = async (db: Database, pageId: number) =>
   (await db.pool.query("SELECT state, count(*)::int AS n FROM pick WHERE page_id = $1 GROUP BY 1 ORDER BY 1", [pageId])).rows
     .reduce((acc: Record<string, number>, r: { state: string; n: number }) => ({ ...acc, [r.state]: r.n }), {});
 
+/** Runs `action` while `loop` computes its folds with `compute` (given the engine) in place of the engine. */
+async function withCompute<T>(loop: FoldLoop, compute: (input: FoldCycleInput, engine: FoldContext["compute"]) => Promise<FoldCycleOutput>, action: () => Promise<T>): Promise<T> {
+  const context = loop.context as { compute: FoldContext["compute"] };
+  const engine = context.compute;
+  context.compute = (input) => compute(input, engine);
+  try {
+    return await action();
+  } finally {
+    context.compute = engine;
+  }
+}
+
 forEachDatabase("fold loop", (open, target) => {
   describe("maturing and the attribution window", () => {
     const h = useHarness(open);
@@ -125,19 +137,14 @@ forEachDatabase("fold loop", (open, target) => {
       const page = await createPage(h, "busy-page", {});
       await h.pick(page, "b0", { source: "search" });
       const loop = h.server.services.folds;
-      const compute = loop.context.compute;
       let during: { status: number; sticky: boolean } | null = null;
       // a pick made from inside the computation would wait forever if the fold held the database
-      (loop.context as { compute: typeof compute }).compute = async (input) => {
+      const folded = await withCompute(loop, async (input, engine) => {
         const r = await h.pick(page, "b1", { source: "search" });
         during = { status: r.status, sticky: r.body.sticky };
-        return compute(input);
-      };
-      try {
-        expect(await loop.foldPage(page.id, true)).toMatchObject({ folded: true, picks: 1 });
-      } finally {
-        (loop.context as { compute: typeof compute }).compute = compute;
-      }
+        return engine(input);
+      }, () => loop.foldPage(page.id, true));
+      expect(folded).toMatchObject({ folded: true, picks: 1 });
       expect(during).toEqual({ status: 200, sticky: false });
     });
 
@@ -145,22 +152,16 @@ forEachDatabase("fold loop", (open, target) => {
       const page = await createPage(h, "raced-page", {});
       for (const v of ["r0", "r1"]) await h.pick(page, v, { source: "search" });
       const loop = h.server.services.folds;
-      const compute = loop.context.compute;
       const raceWith = async (sideEffect: () => Promise<unknown>) => {
         let once = true;
         // (the edit folds too, through the same context: only the loop's fold runs the side effect)
-        (loop.context as { compute: typeof compute }).compute = async (input) => {
+        return withCompute(loop, async (input, engine) => {
           if (once) {
             once = false;
             await sideEffect();
           }
-          return compute(input);
-        };
-        try {
-          return await loop.foldPage(page.id, true);
-        } finally {
-          (loop.context as { compute: typeof compute }).compute = compute;
-        }
+          return engine(input);
+        }, () => loop.foldPage(page.id, true));
       };
       // a conversion stamped before the fold's read time commits only after the read (an outcome
       // whose transaction began before the read and ended after it)
@@ -200,17 +201,6 @@ forEachDatabase("fold loop", (open, target) => {
   describe("page edits", () => {
     const h = useHarness(open);
     const loop = () => h.server.services.folds;
-    /** Runs `edit` while the fold loop computes with `compute` in place of the engine. */
-    const withCompute = async <T>(compute: (input: FoldCycleInput, engine: FoldContext["compute"]) => Promise<FoldCycleOutput>, edit: () => Promise<T>): Promise<T> => {
-      const context = loop().context as { compute: FoldContext["compute"] };
-      const engine = context.compute;
-      context.compute = (input) => compute(input, engine);
-      try {
-        return await edit();
-      } finally {
-        context.compute = engine;
-      }
-    };
     const versionOf = async (pageId: number) => (await h.db.pool.query("SELECT model_version FROM page WHERE id = $1", [pageId])).rows[0].model_version as number;
 
     it("answers an edit whose fold outlasts EDIT_FOLD_WAIT_MS at once, serves the baseline meanwhile, and finishes the fold in the background", async () => {
@@ -219,7 +209,7 @@ forEachDatabase("fold loop", (open, target) => {
       let release!: () => void;
       const held = new Promise<void>((resolve) => { release = resolve; });
       try {
-        const answer = await withCompute(async (input, engine) => {
+        const answer = await withCompute(loop(), async (input, engine) => {
           await held;
           return engine(input);
         }, () => h.admin("PATCH", `/pages/${page.key}`, { addLevels: [{ factor: "button", name: "chat", value: "Chat with us" }] }));
@@ -245,27 +235,26 @@ forEachDatabase("fold loop", (open, target) => {
     it("lets a stopping loop finish the fold it runs but start no refit that was still waiting", async () => {
       const page = await createPage(h, "stopping", {});
       const own = new FoldLoop(h.db.pool, false);
-      const context = own.context as { compute: FoldContext["compute"] };
-      const engine = context.compute;
       let release!: () => void;
       const held = new Promise<void>((resolve) => { release = resolve; });
-      context.compute = async (input) => {
+      const [running, waiting] = await withCompute(own, async (input, engine) => {
         await held;
         return engine(input);
-      };
-      const running = own.foldPage(page.id, true);
-      const waiting = own.refit(page.id);
-      const stopped = own.stop();
-      release();
-      await stopped;
-      expect(await running).toMatchObject({ folded: true });
-      expect(await waiting).toEqual({ folded: false, page: null, reason: "stopped" });
+      }, async () => {
+        const results = [own.foldPage(page.id, true), own.refit(page.id)];
+        const stopped = own.stop();
+        release();
+        await stopped;
+        return Promise.all(results);
+      });
+      expect(running).toMatchObject({ folded: true });
+      expect(waiting).toEqual({ folded: false, page: null, reason: "stopped" });
     });
 
     it("leaves a page whose edit fold failed to the fold loop's next pass, which folds it with nothing new", async () => {
       const page = await createPage(h, "failed-edit", {});
       const before = await versionOf(page.id);
-      const answer = await withCompute(async () => {
+      const answer = await withCompute(loop(), async () => {
         throw new Error("the fold thread exited (code 1)");
       }, () => h.admin("PATCH", `/pages/${page.key}`, { settings: { explorationFloor: 0.2 } }));
       expect(answer.status).toBe(200);

@@ -76,7 +76,8 @@ describe("foldCycle", () => {
     const later = foldCycle({ design, settings, state: out.state, rows: [], now: 120_000 + 30 * DAY, segments: ["s"], retired: out.retired, seed: 9 });
     const back = later.retired.find((r) => r.segment === "s" && r.combination === key(1))!;
     expect(back.reinstatedAt).toBe(120_000 + 30 * DAY);
-    expect(back.reinstateReason).toMatch(/no longer below|rose/);
+    // (by probability: by the bound it would take retireAfterFolds folds in a row)
+    expect(back.reinstateReason).toMatch(/probability of being best rose/);
     expect(propensityOf(later.allocations.s, key(1))).toBeGreaterThan(0);
   });
 
